@@ -1,0 +1,162 @@
+"""Building pieces shared by device kinds: parameter groups and the free-layer macrospin.
+
+These compose physics blocks; they contain no equation of their own.
+"""
+from __future__ import annotations
+
+import math
+
+import sympy as sp
+
+from ..physics import anisotropy, geometry, macrospin, thermal, tunnelling
+from ..physics.constants import const_values, gamma0
+from ..params import ParamSpec
+
+NM = 1e-9
+KA_M = 1e3
+OHM_UM2 = 1e-12
+DEG = math.pi / 180
+
+
+def free_layer_specs() -> list[ParamSpec]:
+    g = "free layer"
+    return [
+        ParamSpec("diameter", "m", 40 * NM, 5 * NM, 1e-6, "free-layer (pillar) diameter", card_unit="nm",
+                  card_scale=NM, group="geometry", lo_open=True),
+        ParamSpec("t_free", "m", 1.3 * NM, 0.3 * NM, 10 * NM, "free-layer thickness", card_unit="nm",
+                  card_scale=NM, group="geometry"),
+        ParamSpec("ms", "A/m", 1.0e6, 1e4, 3e6, "saturation magnetisation of the free layer",
+                  source="CoFeB ~1.0-1.3 MA/m: S. Ikeda et al., Nat. Mater. 9, 721 (2010) (from memory)",
+                  card_unit="A/m", group=g),
+        ParamSpec("ki", "J/m^2", 1.3e-3, 0.0, 1e-2, "interface anisotropy energy density",
+                  source="CoFeB/MgO ~1.0-1.3 mJ/m^2: S. Ikeda et al., Nat. Mater. 9, 721 (2010) (from memory)",
+                  card_unit="mJ/m^2", card_scale=1e-3, group=g),
+        ParamSpec("kb", "J/m^3", 0.0, -1e7, 1e7, "bulk uniaxial anisotropy energy density (perpendicular > 0)",
+                  card_unit="J/m^3", group=g),
+        ParamSpec("alpha", "1", 0.01, 1e-4, 1.0, "Gilbert damping",
+                  source="CoFeB ~0.005-0.03 (from memory)", group=g),
+        ParamSpec("demag_nz", "1", 1.0, 0.0, 1.0,
+                  "axial demagnetising factor N_z (N_x = N_y = (1 - N_z)/2); set from the geometry by [model] demag",
+                  source="cylinder: D.-X. Chen, J. A. Brug, R. B. Goldfarb, IEEE Trans. Magn. 27, 3601 (1991)",
+                  group=g),
+        ParamSpec("hx", "A/m", 0.0, -1e7, 1e7, "external field along x (in plane)", card_unit="mT",
+                  card_scale=1e-3 / 1.25663706127e-6, group="fields"),
+        ParamSpec("hy", "A/m", 0.0, -1e7, 1e7, "external field along y (in plane)", card_unit="mT",
+                  card_scale=1e-3 / 1.25663706127e-6, group="fields"),
+        ParamSpec("hz", "A/m", 0.0, -1e7, 1e7, "external field along z (perpendicular, +z = reference direction)",
+                  card_unit="mT", card_scale=1e-3 / 1.25663706127e-6, group="fields"),
+        ParamSpec("tnom", "K", 300.15, 150.0, 500.0,
+                  "temperature at which the parameters were measured; sets the thermal initial angle",
+                  card_unit="degC", group="temperature"),
+    ]
+
+
+def mtj_read_specs() -> list[ParamSpec]:
+    g = "tunnel junction"
+    return [
+        ParamSpec("ra", "ohm*m^2", 5 * OHM_UM2, 0.05 * OHM_UM2, 1e4 * OHM_UM2,
+                  "resistance-area product in the parallel state",
+                  source="MgO MTJs ~1-20 ohm um^2 (from memory)", card_unit="ohm*um^2", card_scale=OHM_UM2, group=g,
+                  lo_open=True),
+        ParamSpec("tmr0", "1", 1.5, 0.0, 10.0, "zero-bias TMR ratio (R_AP - R_P)/R_P",
+                  source="CoFeB/MgO pMTJ ~1.0-2.0 at room temperature (from memory)", group=g),
+        ParamSpec("v_half", "V", 0.5, 0.02, 10.0, "bias at which the TMR ratio has halved",
+                  source="MgO ~0.3-0.6 V (from memory); law: common practice, no source", card_unit="V", group=g),
+    ]
+
+
+def limit_specs(v_max: float = 1.2, j_max: float = 1.5e11) -> list[ParamSpec]:
+    g = "calibrated range"
+    return [
+        ParamSpec("v_max", "V", v_max, 0.01, 10.0,
+                  "largest |bias| across the barrier the model was calibrated for (stay well below breakdown)",
+                  card_unit="V", group=g),
+        ParamSpec("j_max", "A/m^2", j_max, 1e6, 1e14,
+                  "largest |current density| the model was calibrated for", card_unit="A/m^2", group=g),
+    ]
+
+
+def orientation_specs() -> list[ParamSpec]:
+    g = "instance"
+    return [
+        ParamSpec("state0", "1", 1.0, -1.0, 1.0,
+                  "initial orientation: +1 parallel (m_z = +1), -1 antiparallel (sign is taken)", kind="instance",
+                  group=g),
+        ParamSpec("tilt0", "rad", 0.0, 0.0, 1.5,
+                  "initial cone angle of the free layer; 0 = thermal most-probable angle sqrt(1/(2 Delta)) at tnom",
+                  kind="instance", group=g),
+    ]
+
+
+def cylinder_nz(values: dict[str, float], mode: str) -> float:
+    if mode == "thin-film":
+        return 1.0
+    return geometry.cylinder_demag_nz(values["diameter"], values["t_free"])
+
+
+class Parts:
+    """Accumulates derived expressions, locals and equations while a device is composed."""
+
+    def __init__(self, P: dict[str, sp.Symbol]):
+        self.P = P
+        self.derived: list[tuple[sp.Symbol, sp.Expr]] = []
+        self.locals: list[tuple[sp.Symbol, sp.Expr]] = []
+        self.constraints: list[tuple[sp.Expr, str]] = []
+
+    def d(self, name: str, expr, positive: bool = False) -> sp.Symbol:
+        s = sp.Symbol(name, real=True, positive=True) if positive else sp.Symbol(name, real=True)
+        self.derived.append((s, sp.sympify(expr)))
+        return s
+
+    def loc(self, name: str, expr) -> sp.Symbol:
+        s = sp.Symbol(name, real=True)
+        self.locals.append((s, sp.sympify(expr)))
+        return s
+
+
+def free_layer(parts: Parts, area):
+    """Derived quantities of a perpendicular free layer; returns a dict of symbols."""
+    P = parts.P
+    ku = parts.d("ku", anisotropy.uniaxial_energy_density(P["kb"], P["ki"], P["t_free"]))
+    hk = parts.d("hk", anisotropy.anisotropy_field(ku, P["ms"]))
+    nx = parts.d("demag_nx", (1 - P["demag_nz"]) / 2)
+    hk_eff = parts.d("hk_eff", anisotropy.effective_anisotropy_field(hk, P["ms"], nx, P["demag_nz"]))
+    parts.constraints.append((hk_eff, "the effective anisotropy field H_k,eff must be positive "
+                              "(perpendicular free layer); raise ki or lower ms"))
+    vol = parts.d("vol", area * P["t_free"], positive=True)
+    keff = parts.d("keff", anisotropy.effective_energy_density(hk_eff, P["ms"]))
+    e_b = parts.d("e_b", thermal.barrier_energy(keff, vol))
+    delta_nom = parts.d("delta_nom", thermal.thermal_stability(e_b, P["tnom"]))
+    tsc = parts.d("tsc", 1 / (gamma0 * hk_eff))
+    tilt = parts.d("tilt", sp.Piecewise((thermal.thermal_mode_angle(delta_nom), P["tilt0"] <= 0), (P["tilt0"], True)))
+    sgn = parts.d("sgn0", sp.Piecewise((1, P["state0"] >= 0), (-1, True)))
+    return dict(ku=ku, hk=hk, nx=nx, hk_eff=hk_eff, vol=vol, keff=keff, e_b=e_b, delta_nom=delta_nom,
+                tsc=tsc, tilt=tilt, sgn0=sgn)
+
+
+def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p):
+    """Cartesian macrospin states (m_x, m_y, m_z): non-singular at both poles; |m| = 1 kept by
+    the sphere-restoring term at rate 1/tsc.  Returns (state symbols, rhs list, initial list)."""
+    from ..ir import State
+
+    P = parts.P
+    m = [sp.Symbol(n, real=True) for n in ("mx", "my", "mz")]
+    n = (fl["nx"], fl["nx"], P["demag_nz"])
+    heff = anisotropy.effective_field(m, fl["hk"], P["ms"], n, (P["hx"], P["hy"], P["hz"]))
+    hx_ = parts.loc("heff_x", heff[0])
+    hy_ = parts.loc("heff_y", heff[1])
+    hz_ = parts.loc("heff_z", heff[2])
+    rhs = macrospin.llg_explicit(m, (hx_, hy_, hz_), P["alpha"], h_dl, h_fl, p)
+    rhs = rhs + macrospin.sphere_restoring(m, 1 / fl["tsc"])
+    init = [sp.sin(fl["tilt"]), sp.Integer(0), fl["sgn0"] * sp.cos(fl["tilt"])]
+    descs = ["free-layer m_x", "free-layer m_y", "free-layer m_z (+1 = parallel to the reference layer)"]
+    states = [State(str(s), s, r, i, dsc) for s, r, i, dsc in zip(m, rhs, init, descs)]
+    return m, states
+
+
+def mtj_conductance(parts: Parts, area, v, cos_theta):
+    P = parts.P
+    return parts.loc("g_mtj", tunnelling.mtj_conductance(P["ra"], area, P["tmr0"], P["v_half"], v, cos_theta))
+
+
+__all__ = ["Parts", "free_layer", "macrospin_states", "mtj_conductance", "const_values"]

@@ -1,0 +1,226 @@
+"""ModelIR: the language-neutral description of one device model.
+
+A device kind builds a ModelIR from physics blocks.  The reference solver, the Verilog-A
+and ngspice printers and the datasheet read nothing else.
+
+Evaluation order inside a model: parameters -> ``derived`` (parameter-only expressions) ->
+``locals`` (expressions of terminal voltages, states and temperature) -> state right-hand
+sides, branch currents and outputs.
+
+State equations.  Each state x with right-hand side f (in 1/s) and initial value x0 lives on
+an internal node.  Both back ends write the same residual, current leaving the node:
+
+    ddt(tsc * x) + (t > 0 ? -tsc * f : x - x0) = 0
+
+so the state is held at x0 in the operating point (and in DC sweeps) and integrated from
+there in a transient; ``tsc`` is the model's time scale, which keeps the residual O(1).
+"""
+from __future__ import annotations
+
+import hashlib
+from dataclasses import dataclass, field
+
+import sympy as sp
+
+from .params import ParamSpec, ParamTable
+
+
+#: simulation time inside a model ($abstime in Verilog-A, time in ngspice); 0 in the operating point
+SIM_TIME = sp.Symbol("sim_time", nonnegative=True)
+
+
+@dataclass(frozen=True)
+class Terminal:
+    name: str
+    desc: str
+
+
+@dataclass(frozen=True)
+class State:
+    name: str  # internal node name, also the symbol name
+    symbol: sp.Symbol
+    rhs: sp.Expr  # d(state)/dt [1/s]
+    initial: sp.Expr  # parameter-only
+    desc: str
+    unit: str = "1"
+
+
+@dataclass(frozen=True)
+class Branch:
+    pos: str
+    neg: str
+    current: sp.Expr  # conventional current from pos to neg through the device [A]
+    desc: str
+
+
+@dataclass(frozen=True)
+class Output:
+    """A quantity the simulator reports per instance (operating-point output)."""
+
+    name: str
+    expr: sp.Expr
+    unit: str
+    desc: str
+
+
+@dataclass(frozen=True)
+class Figure:
+    """A parameter-only key figure for the datasheet and release comparisons."""
+
+    name: str
+    expr: sp.Expr
+    unit: str
+    desc: str
+    source: str = ""
+
+
+@dataclass
+class ModelIR:
+    name: str
+    kind: str
+    title: str
+    terminals: list[Terminal]
+    params: ParamTable
+    constants: dict[sp.Symbol, float]
+    derived: list[tuple[sp.Symbol, sp.Expr]]
+    voltages: dict[sp.Symbol, tuple[str, str]]
+    temperature: sp.Symbol
+    locals: list[tuple[sp.Symbol, sp.Expr]]
+    states: list[State]
+    time_scale: sp.Symbol
+    branches: list[Branch]
+    outputs: list[Output] = field(default_factory=list)
+    figures: list[Figure] = field(default_factory=list)
+    conventions: list[str] = field(default_factory=list)
+    #: parameter-only expressions that must be positive, with the message when they are not
+    constraints: list[tuple[sp.Expr, str]] = field(default_factory=list)
+    #: limit parameter name -> local symbol whose magnitude it bounds (calibrated range)
+    limits: dict[str, sp.Symbol] = field(default_factory=dict)
+    #: filled by hoisted(): the residual of each state with coefficients hoisted
+    residuals: dict[str, sp.Expr] = field(default_factory=dict)
+
+    # ---- queries -------------------------------------------------------------------------
+    def param_symbols(self) -> dict[str, sp.Symbol]:
+        return self.params.symbols()
+
+    def state_symbols(self) -> list[sp.Symbol]:
+        return [s.symbol for s in self.states]
+
+    def derived_map(self) -> dict[sp.Symbol, sp.Expr]:
+        return dict(self.derived)
+
+    def temperature_dependent(self) -> set[sp.Symbol]:
+        """Derived symbols that depend, directly or through other derived ones, on temperature."""
+        dep: set[sp.Symbol] = set()
+        for sym, expr in self.derived:
+            if self.temperature in expr.free_symbols or expr.free_symbols & dep:
+                dep.add(sym)
+        return dep
+
+    def residual(self, state: State) -> sp.Expr:
+        """Current leaving the state node besides ddt(tsc*x): the one form both back ends print."""
+        if state.name in self.residuals:
+            return self.residuals[state.name]
+        return sp.Piecewise((-self.time_scale * state.rhs, SIM_TIME > 0), (state.symbol - state.initial, True))
+
+    def hoisted(self, prefix: str = "kq") -> "ModelIR":
+        """An equivalent IR in which every parameter-only sub-expression of a bias-dependent
+        expression is a derived quantity of its own.
+
+        Both simulators then evaluate those coefficients once per instance instead of at every
+        Newton iteration, and ngspice, whose B-source arithmetic loses accuracy on products of
+        very small constants such as hbar*e*mu0, only sees numbers of ordinary magnitude.
+        """
+        import dataclasses
+
+        tdep = self.temperature_dependent()
+        base = set(self.param_symbols().values()) | set(self.constants) | {s for s, _ in self.derived if s not in tdep}
+        new_defs: list[tuple[sp.Symbol, sp.Expr]] = []
+        cache: dict[sp.Expr, sp.Symbol] = {}
+
+        def name_for(e):
+            if e not in cache:
+                sym = sp.Symbol(f"{prefix}{len(cache) + 1}", real=True)
+                cache[e] = sym
+                new_defs.append((sym, e))
+            return cache[e]
+
+        def is_par(e):
+            return not e.is_Atom and e.free_symbols <= base
+
+        def h(e):
+            if e.is_Atom or isinstance(e, (sp.core.relational.Relational,)):
+                return e
+            if is_par(e):
+                return name_for(e)
+            if isinstance(e, (sp.Add, sp.Mul)):
+                pars = [a for a in e.args if a.free_symbols <= base]
+                rest = [h(a) for a in e.args if not a.free_symbols <= base]
+                if len(pars) >= 2 or (len(pars) == 1 and not pars[0].is_Atom):
+                    return e.func(name_for(e.func(*pars)), *rest)
+                return e.func(*pars, *rest)
+            return e.func(*[h(a) for a in e.args])
+
+        loc = [(s, h(e)) for s, e in self.locals]
+        states = [dataclasses.replace(st, rhs=h(st.rhs)) for st in self.states]
+        branches = [dataclasses.replace(b, current=h(b.current)) for b in self.branches]
+        outputs = [dataclasses.replace(o, expr=h(o.expr)) for o in self.outputs]
+        residuals = {st.name: h(self.residual(st)) for st in self.states}
+        return dataclasses.replace(self, derived=list(self.derived) + new_defs, locals=loc, states=states,
+                                   branches=branches, outputs=outputs, residuals=residuals)
+
+    def validate(self) -> None:
+        """Structural checks: every symbol is defined before use; no hidden inputs."""
+        known = set(self.param_symbols().values()) | set(self.constants) | {self.temperature}
+        for sym, expr in self.derived:
+            _need(expr, known, f"derived {sym}")
+            known.add(sym)
+        if self.time_scale not in known:
+            raise ValueError("time scale must be a derived symbol")
+        if self.time_scale in self.temperature_dependent():
+            raise ValueError("the time scale may not depend on temperature (ngspice needs it at parse time)")
+        known_rt = known | set(self.voltages) | set(self.state_symbols())
+        for sym, expr in self.locals:
+            _need(expr, known_rt, f"local {sym}")
+            known_rt.add(sym)
+        for s in self.states:
+            _need(s.rhs, known_rt, f"state {s.name}")
+            _need(s.initial, known, f"initial value of {s.name}")
+        for b in self.branches:
+            _need(b.current, known_rt, f"branch {b.pos},{b.neg}")
+        for o in self.outputs:
+            _need(o.expr, known_rt, f"output {o.name}")
+        term = {t.name for t in self.terminals}
+        for pos, neg in self.voltages.values():
+            if pos not in term or (neg not in term and neg != "0"):
+                raise ValueError(f"voltage probe ({pos},{neg}) uses an unknown terminal")
+
+    def digest(self) -> str:
+        """A stable hash of the model equations (goes into generated headers and manifests)."""
+        h = hashlib.sha256()
+        for part in self._canonical_parts():
+            h.update(part.encode())
+            h.update(b"\0")
+        return h.hexdigest()[:16]
+
+    def _canonical_parts(self):
+        yield self.kind
+        yield ",".join(t.name for t in self.terminals)
+        for s in self.params:
+            yield f"{s.name}|{s.unit}|{s.default!r}|{s.lo!r}|{s.hi!r}|{s.kind}"
+        for sym, e in self.derived + self.locals:
+            yield f"{sym}={sp.srepr(e)}"
+        for s in self.states:
+            yield f"{s.name}:{sp.srepr(s.rhs)}:{sp.srepr(s.initial)}"
+        for b in self.branches:
+            yield f"{b.pos},{b.neg}:{sp.srepr(b.current)}"
+
+
+def _need(expr, known, what):
+    missing = set(expr.free_symbols) - set(known)
+    if missing:
+        raise ValueError(f"{what} uses undefined symbols {sorted(map(str, missing))}")
+
+
+def param(spec: ParamSpec) -> sp.Symbol:
+    return spec.symbol

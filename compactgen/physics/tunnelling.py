@@ -1,0 +1,52 @@
+"""Tunnelling magnetoresistance of an MTJ."""
+from __future__ import annotations
+
+import sympy as sp
+
+
+def resistance_from_ra(ra, area):
+    """R = RA / area  [ohm]; ``ra`` in ohm*m^2, ``area`` in m^2 (common practice, no source)."""
+    return ra / area
+
+
+def tmr_bias(tmr0, v, v_half):
+    """Bias roll-off of the TMR ratio, TMR(V) = TMR0 / (1 + (V/V_h)^2).
+
+    Empirical law, common practice, no source; V_h is the bias at which TMR has halved.
+    """
+    return tmr0 / (1 + (v / v_half) ** 2)
+
+
+def conductance_angle(g_p, g_ap, cos_theta):
+    """G(theta) = (G_P + G_AP)/2 + (G_P - G_AP)/2 * cos(theta): the conductance, not the
+    resistance, is linear in cos(theta).
+
+    Source: J. C. Slonczewski, Phys. Rev. B 39, 6995 (1989).
+    """
+    return (g_p + g_ap) / 2 + (g_p - g_ap) / 2 * cos_theta
+
+
+def julliere_tmr(p1, p2):
+    """TMR = (R_AP - R_P)/R_P = 2 P1 P2 / (1 - P1 P2).
+
+    Source: M. Julliere, Phys. Lett. 54A, 225 (1975) (normalised here by R_P; Julliere's own
+    ratio divided by G_P, giving 2P1P2/(1 + P1P2)).
+    """
+    return 2 * p1 * p2 / (1 - p1 * p2)
+
+
+def mtj_conductance(ra, area, tmr0, v_half, v, cos_theta):
+    """Conductance of a pillar: R_P = RA/area bias-independent, R_AP(V) = R_P (1 + TMR(V)),
+    interpolated in cos(theta) (common compact-model practice, no source)."""
+    r_p = resistance_from_ra(ra, area)
+    g_p = 1 / r_p
+    g_ap = 1 / (r_p * (1 + tmr_bias(tmr0, v, v_half)))
+    return conductance_angle(g_p, g_ap, cos_theta)
+
+
+def sharp_wall_fraction(q, length, width):
+    """Fraction of an MTJ of ``length`` over a track whose magnetisation is +z for x < q and
+    -z beyond, for a Walker-profile wall m_z = -tanh((x - q)/width):
+    <m_z> = (width/L) [ln cosh((L - q)/width) - ln cosh(q/width)]   (PHYSICS 6.5, derived).
+    """
+    return width / length * (sp.log(sp.cosh((length - q) / width)) - sp.log(sp.cosh(q / width)))

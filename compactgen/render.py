@@ -1,0 +1,138 @@
+"""Render a ModelIR into Verilog-A, an ngspice subcircuit library and a datasheet.
+
+Templates hold no maths: every expression arrives as a string printed by the strict printers.
+"""
+from __future__ import annotations
+
+import hashlib
+import math
+from pathlib import Path
+
+import jinja2
+import sympy as sp
+
+from . import __version__
+from .ir import SIM_TIME, ModelIR
+from .printing import NgspicePrinter, VerilogAPrinter
+from .printing.base import format_number
+
+TEMPLATE_DIR = Path(__file__).resolve().parent.parent / "templates"
+if not TEMPLATE_DIR.is_dir():  # installed as a wheel: templates shipped inside the package
+    TEMPLATE_DIR = Path(__file__).resolve().parent / "templates"
+
+
+def environment() -> jinja2.Environment:
+    env = jinja2.Environment(
+        loader=jinja2.FileSystemLoader(str(TEMPLATE_DIR)),
+        undefined=jinja2.StrictUndefined,
+        trim_blocks=False,
+        lstrip_blocks=False,
+        keep_trailing_newline=True,
+        autoescape=False,
+    )
+    env.filters["spice_wrap"] = spice_wrap
+    return env
+
+
+def spice_wrap(text: str, width: int = 100) -> str:
+    """Break a long SPICE line at spaces into '+' continuation lines."""
+    if len(text) <= width:
+        return text
+    out, line = [], ""
+    for tok in text.split(" "):
+        if line and len(line) + 1 + len(tok) > width:
+            out.append(line)
+            line = "+ " + tok
+        else:
+            line = f"{line} {tok}" if line else tok
+    out.append(line)
+    return "\n".join(out)
+
+
+def param_digest(ir: ModelIR) -> str:
+    h = hashlib.sha256()
+    for s in ir.params:
+        h.update(f"{s.name}={s.default!r};".encode())
+    return h.hexdigest()[:16]
+
+
+def _range(spec) -> str:
+    def b(x):
+        if math.isinf(x):
+            return "inf" if x > 0 else "-inf"
+        return format_number(x)
+
+    return f"{'(' if spec.lo_open else '['}{b(spec.lo)}:{b(spec.hi)}{')' if spec.hi_open else ']'}"
+
+
+def _stress_expr(ir: ModelIR) -> sp.Expr:
+    terms = [sp.Abs(sym) / ir.params[name].symbol for name, sym in ir.limits.items()]
+    return sp.Max(*terms) if len(terms) > 1 else terms[0]
+
+
+def _common(ir: ModelIR) -> dict:
+    return dict(
+        name=ir.name, title=ir.title, kind=ir.kind, version=__version__, digest=ir.digest(),
+        param_digest=param_digest(ir), conventions=ir.conventions,
+        ports=[t.name for t in ir.terminals],
+    )
+
+
+def verilog_a(ir: ModelIR) -> str:
+    ir = ir.hoisted()
+    smap = {str(k): f"V({p},{n})" if n != "0" else f"V({p})" for k, (p, n) in ir.voltages.items()}
+    smap.update({s.name: f"V({s.name})" for s in ir.states})
+    smap[str(ir.temperature)] = "$temperature"
+    smap[str(SIM_TIME)] = "$abstime"
+    pr = VerilogAPrinter(smap)
+    ctx = _common(ir)
+    ctx.update(
+        params=[dict(name=s.name, unit=s.unit, desc=s.desc.replace('"', "'"), instance=s.kind == "instance",
+                     default=format_number(s.default), range=_range(s)) for s in ir.params],
+        constants=[dict(name=str(k), code=format_number(v)) for k, v in ir.constants.items()],
+        derived=[dict(name=str(k), code=pr.code(e)) for k, e in ir.derived],
+        locals=[dict(name=str(k), code=pr.code(e)) for k, e in ir.locals],
+        states=[dict(name=s.name, desc=s.desc, residual=pr.code(ir.residual(s))) for s in ir.states],
+        time_scale=str(ir.time_scale),
+        branches=[dict(pos=b.pos, neg=b.neg, desc=b.desc, code=pr.code(b.current)) for b in ir.branches],
+        outputs=[dict(name=o.name, desc=o.desc, unit=o.unit, code=pr.code(o.expr)) for o in ir.outputs],
+        stress=pr.code(_stress_expr(ir)),
+    )
+    return environment().get_template("verilog_a/model.va.j2").render(**ctx)
+
+
+def ngspice(ir: ModelIR) -> str:
+    """ngspice subcircuit: parameter-only quantities as .param, everything that depends on
+    bias, state or temperature inlined into the B-source expressions."""
+    ir = ir.hoisted()
+    smap = {str(k): f"V({p},{n})" if n != "0" else f"V({p})" for k, (p, n) in ir.voltages.items()}
+    smap.update({s.name: f"V({s.name})" for s in ir.states})
+    smap[str(ir.temperature)] = "(temper + 273.15)"
+    # ngspice passes the sweep value of a .dc analysis in `time`, so the model reads the
+    # simulation time from its own source clk instead: PWL(0 0 1 1) is 0 in every DC
+    # analysis and equals the time during the first second of a transient.
+    smap[str(SIM_TIME)] = "V(clk)"
+    pr = NgspicePrinter(smap)
+    tdep = ir.temperature_dependent()
+    inline: dict[sp.Symbol, sp.Expr] = {}
+    for sym, e in ir.derived:
+        if sym in tdep:
+            inline[sym] = e.xreplace(inline)
+    for sym, e in ir.locals:
+        inline[sym] = e.xreplace(inline)
+
+    def code(e):
+        return pr.code(sp.sympify(e).xreplace(inline))
+
+    ctx = _common(ir)
+    ctx.update(
+        params=[dict(name=s.name, default=format_number(s.default)) for s in ir.params],
+        constants=[dict(name=str(k), code=format_number(v)) for k, v in ir.constants.items()],
+        derived=[dict(name=str(k), code=pr.code(e)) for k, e in ir.derived if k not in tdep],
+        states=[dict(name=s.name, desc=s.desc, residual=spice_wrap(code(ir.residual(s))), initial=code(s.initial))
+                for s in ir.states],
+        time_scale=str(ir.time_scale),
+        branches=[dict(pos=b.pos, neg=b.neg, desc=b.desc, code=spice_wrap(code(b.current))) for b in ir.branches],
+        stress=spice_wrap(code(_stress_expr(ir))),
+    )
+    return environment().get_template("ngspice/model.lib.j2").render(**ctx)

@@ -1,0 +1,274 @@
+"""Verification harness: every bench on the reference, in ngspice and in VACASK; compare.
+
+Each simulator metric is compared with the reference metric within the metric's tolerance;
+expectations (a final state, no switching) are checked on every run on its own.  A missing
+simulator is a failure, never a silent skip.
+"""
+from __future__ import annotations
+
+import os
+import sys
+import tempfile
+import warnings
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from . import render
+from .benches import Bench, Dc, Pulse
+from .errors import OutOfCalibratedRange, SimulationError
+from .ir import ModelIR
+from .printing.base import format_number
+from .reference import ReferenceModel, Trace
+
+SIMULATORS = ("ngspice", "vacask")
+RELTOL = 1e-6  # simulator reltol used by every bench (see the tolerance reasons in benches.py)
+
+
+@dataclass
+class Row:
+    bench: str
+    metric: str
+    unit: str
+    reference: float
+    values: dict[str, float]
+    error: float  # largest |sim - ref| / (atol + rtol |ref|): <= 1 passes
+    tolerance: str
+    reason: str
+    passed: bool
+    note: str = ""
+
+
+@dataclass
+class BenchRun:
+    bench: Bench
+    traces: dict[str, Trace]
+    rows: list[Row]
+
+
+@dataclass
+class SuiteResult:
+    model: str
+    runs: list[BenchRun] = field(default_factory=list)
+    simulators: tuple[str, ...] = SIMULATORS
+
+    @property
+    def rows(self) -> list[Row]:
+        return [r for run in self.runs for r in run.rows]
+
+    @property
+    def passed(self) -> bool:
+        return all(r.passed for r in self.rows)
+
+    def table(self) -> str:
+        head = ["bench", "metric", "reference"] + list(self.simulators) + ["error/tol", "tolerance", "verdict"]
+        lines = [head]
+        for r in self.rows:
+            lines.append([r.bench, r.metric, _num(r.reference, r.unit)]
+                         + [_num(r.values.get(s, float("nan")), r.unit) for s in self.simulators]
+                         + [f"{r.error:.3f}", r.tolerance, "pass" if r.passed else "FAIL" + (f" ({r.note})" if r.note else "")])
+        widths = [max(len(str(row[i])) for row in lines) for i in range(len(head))]
+        out = ["  ".join(str(c).ljust(w) for c, w in zip(row, widths)).rstrip() for row in lines]
+        out.insert(1, "  ".join("-" * w for w in widths))
+        n_fail = sum(not r.passed for r in self.rows)
+        out.append(f"{len(self.rows) - n_fail} passed, {n_fail} failed")
+        return "\n".join(out)
+
+
+def _num(x: float, unit: str) -> str:
+    if x is None or not np.isfinite(x):
+        return "nan"
+    return f"{x:.6g} {unit}" if unit not in ("1", "") else f"{x:.6g}"
+
+
+# ---- deck rendering ---------------------------------------------------------------------------
+def _drives(ir: ModelIR, bench: Bench) -> list[dict]:
+    out = []
+    for t in ir.terminals:
+        w = bench.drives.get(t.name, Dc(0.0))
+        if isinstance(w, Pulse):
+            out.append(dict(term=t.name, pulse=True, v0=format_number(w.v0), v1=format_number(w.v1),
+                            delay=format_number(w.delay), rise=format_number(w.rise), fall=format_number(w.fall),
+                            width=format_number(w.width), period=format_number(w.period)))
+        else:
+            out.append(dict(term=t.name, pulse=False, level=format_number(w.level)))
+    return out
+
+
+def _context(ir: ModelIR, bench: Bench) -> dict:
+    ctx = dict(bench=bench.name, title=bench.title, module=ir.name, drives=_drives(ir, bench),
+               nodes=" ".join(f"n_{t.name}" for t in ir.terminals),
+               instance=[(k, format_number(v)) for k, v in bench.instance.items()],
+               analysis=bench.analysis, reltol=format_number(RELTOL))
+    if bench.analysis == "dc":
+        term, a, b, step = bench.sweep
+        ctx["sweep"] = dict(term=term, start=format_number(a), stop=format_number(b), step=format_number(step))
+    else:
+        ctx.update(t_step=format_number(bench.t_step), t_stop=format_number(bench.t_stop),
+                   max_step=format_number(bench.max_step))
+    return ctx
+
+
+def ngspice_deck(ir: ModelIR, bench: Bench, lib_path: str) -> str:
+    env = render.environment()
+    env.loader.searchpath.append(str(render.TEMPLATE_DIR.parent / "ngspice_decks"))
+    return env.get_template("bench.cir.j2").render(lib_path=lib_path, **_context(ir, bench))
+
+
+def vacask_netlist(ir: ModelIR, bench: Bench, osdi_name: str) -> str:
+    return render.environment().get_template("vacask/bench.sim.j2").render(osdi=osdi_name, **_context(ir, bench))
+
+
+# ---- trace extraction ----------------------------------------------------------------------
+def _trace_ngspice(ir: ModelIR, bench: Bench, data: dict) -> Trace:
+    terms = [t.name for t in ir.terminals]
+    t = data["time"] if bench.analysis == "tran" else np.zeros(0)
+    return Trace(t=np.asarray(t),
+                 voltages={n: np.asarray(data[f"n_{n}"]) for n in terms},
+                 currents={n: -np.asarray(data[f"v_{n}#branch"]) for n in terms},
+                 states={s.name: np.asarray(data[f"xdut.{s.name}"]) for s in ir.states})
+
+
+def _trace_vacask(ir: ModelIR, bench: Bench, plots: dict) -> Trace:
+    terms = [t.name for t in ir.terminals]
+    plot = plots["tr1" if bench.analysis == "tran" else "dc1"]
+    d = plot.data
+    t = d["time"] if bench.analysis == "tran" else np.zeros(0)
+    return Trace(t=np.asarray(t),
+                 voltages={n: np.asarray(d[f"n_{n}"]) for n in terms},
+                 currents={n: -np.asarray(d[f"v_{n}:flow(br)"]) for n in terms},
+                 states={s.name: np.asarray(d[f"xdut:{s.name}"]) for s in ir.states})
+
+
+def reference_trace(ir: ModelIR, bench: Bench) -> Trace:
+    model = ReferenceModel(ir, bench.instance)
+    if bench.analysis == "dc":
+        term = bench.sweep[0]
+        vs = bench.sweep_values()
+        node_v = {t.name: (vs if t.name == term else np.zeros_like(vs)) for t in ir.terminals}
+        return model.dc(node_v)
+    grid = np.linspace(0.0, bench.t_stop, int(round(bench.t_stop / 0.5e-12)) + 1)
+    return model.transient(bench.drives, bench.t_stop, t_eval=grid)
+
+
+# ---- the suite --------------------------------------------------------------------------------
+def run_suite(ir: ModelIR, benches: list[Bench], simulators=SIMULATORS, progress=None,
+              keep_dir: str | Path | None = None) -> SuiteResult:
+    """Run ``benches`` on the reference and on each simulator; compare."""
+    from .sim import compile_va_cached, run_ngspice_many, run_vacask
+
+    say = progress or (lambda msg: None)
+    result = SuiteResult(model=ir.name, simulators=tuple(simulators))
+    traces: dict[str, dict[str, Trace]] = {b.name: {} for b in benches}
+    errors: dict[str, dict[str, str]] = {b.name: {} for b in benches}
+    with tempfile.TemporaryDirectory(prefix="compactgen-verify-") as tmp:
+        work = Path(keep_dir) if keep_dir else Path(tmp)
+        work.mkdir(parents=True, exist_ok=True)
+        lib = work / f"{ir.name}.lib"
+        lib.write_text(render.ngspice(ir))
+        va_text = render.verilog_a(ir)
+        (work / f"{ir.name}.va").write_text(va_text)
+
+        def sim_ngspice():
+            decks = [ngspice_deck(ir, b, str(lib)) for b in benches]
+            for b, deck in zip(benches, decks):
+                (work / f"bench_{b.name}.cir").write_text(deck)
+            say(f"ngspice: {len(decks)} benches")
+            try:
+                datas = run_ngspice_many(decks, timeout=600.0, workers=2)
+            except SimulationError:
+                datas = []
+                for deck in decks:  # find which bench failed
+                    try:
+                        datas.append(run_ngspice_many([deck], timeout=600.0, workers=1)[0])
+                    except SimulationError as exc:
+                        datas.append(exc)
+            for b, data in zip(benches, datas):
+                if isinstance(data, Exception):
+                    errors[b.name]["ngspice"] = str(data).splitlines()[0]
+                else:
+                    traces[b.name]["ngspice"] = _trace_ngspice(ir, b, data)
+
+        def sim_vacask():
+            say("openvaf-r: compiling Verilog-A")
+            osdi = compile_va_cached(va_text, ir.name)
+            say(f"VACASK: {len(benches)} benches")
+
+            def one(b):
+                net = vacask_netlist(ir, b, f"{ir.name}.osdi")
+                (work / f"bench_{b.name}.sim").write_text(net)
+                try:
+                    traces[b.name]["vacask"] = _trace_vacask(ir, b, run_vacask(net, {f"{ir.name}.osdi": osdi},
+                                                                               timeout=600.0))
+                except SimulationError as exc:
+                    errors[b.name]["vacask"] = str(exc).splitlines()[0]
+
+            with ThreadPoolExecutor(max_workers=2) as pool:
+                list(pool.map(one, benches))
+
+        jobs = {"ngspice": sim_ngspice, "vacask": sim_vacask}
+        with ThreadPoolExecutor(max_workers=len(simulators) or 1) as pool:
+            futures = [pool.submit(jobs[s]) for s in simulators]
+            say(f"reference: {len(benches)} benches")
+            with warnings.catch_warnings(record=True) as caught:
+                warnings.simplefilter("always", OutOfCalibratedRange)
+                for b in benches:
+                    traces[b.name]["reference"] = reference_trace(ir, b)
+            for w in caught:
+                say(f"warning: {w.message}")
+            for f in futures:
+                f.result()
+    for b in benches:
+        rows = _compare(b, traces[b.name], errors[b.name], simulators)
+        result.runs.append(BenchRun(b, traces[b.name], rows))
+        say(f"{b.name}: {'pass' if all(r.passed for r in rows) else 'FAIL'}")
+    return result
+
+
+def _compare(bench: Bench, traces: dict[str, Trace], errors: dict[str, str], simulators) -> list[Row]:
+    rows = []
+    ref_tr = traces["reference"]
+    for m in bench.metrics:
+        ref = _safe(m.func, ref_tr)
+        values, err, ok, notes = {}, 0.0, True, []
+        if not m.meets_expectation(ref):
+            ok = False
+            notes.append(f"reference {ref:.4g} misses expected {m.expect[0]:g}")
+        for s in simulators:
+            if s not in traces:
+                ok = False
+                values[s] = float("nan")
+                notes.append(f"{s}: {errors.get(s, 'no result')}")
+                continue
+            v = _safe(m.func, traces[s])
+            values[s] = v
+            scale = m.atol + m.rtol * abs(ref)
+            e = abs(v - ref) / scale if np.isfinite(v) and np.isfinite(ref) else (0.0 if np.isnan(v) and np.isnan(ref) else np.inf)
+            err = max(err, e)
+            if not m.agrees(ref, v):
+                ok = False
+            if not m.meets_expectation(v):
+                ok = False
+                notes.append(f"{s} {v:.4g} misses expected {m.expect[0]:g}")
+        tol = f"{m.rtol:g} rel" if m.rtol else f"{m.atol:g} abs"
+        if m.rtol and m.atol:
+            tol = f"{m.rtol:g} rel + {m.atol:g}"
+        rows.append(Row(bench.name, m.name, m.unit, ref, values, err, tol, m.reason, ok, "; ".join(notes)))
+    return rows
+
+
+def _safe(func, trace) -> float:
+    try:
+        return float(func(trace))
+    except (KeyError, ValueError, IndexError):
+        return float("nan")
+
+
+def progress_printer(stream=sys.stderr):
+    def say(msg: str) -> None:
+        if os.environ.get("COMPACTGEN_QUIET") != "1":
+            print(f"  .. {msg}", file=stream, flush=True)
+
+    return say
