@@ -43,8 +43,8 @@ class ParamSpec:
     lo_open: bool = False
     hi_open: bool = False
     card_unit: str | None = None  # unit the starter card writes the default in
-    card_scale: float = 1.0  # SI value / card_scale = number written with card_unit
     group: str = "general"
+    required: bool = False  # a card must give it (no sensible default exists)
 
     def __post_init__(self):
         if not _NAME.match(self.name) or self.name in RESERVED:
@@ -77,10 +77,11 @@ class ParamSpec:
 
     def card_text(self, value: float | None = None) -> str:
         """The value as written in a card, in the card unit."""
+        from .units import from_si
+
         v = self.default if value is None else value
         unit = self.card_unit or self.unit
-        num = v / self.card_scale
-        num = float(f"{num:.12g}")
+        num = float(f"{from_si(v, self.unit, unit):.12g}")
         if unit in ("1", ""):
             return repr(num)
         return f"{num!r} {unit}"

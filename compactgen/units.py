@@ -92,3 +92,16 @@ def convert(value: float, from_unit: str, to_unit: str) -> float:
     """Convert a float between two units of the same dimension (used for data columns)."""
     ureg = registry()
     return float(ureg.Quantity(value, _canon(from_unit)).to(_canon(to_unit)).magnitude)
+
+
+def from_si(value: float, si_unit: str, unit: str) -> float:
+    """Express an SI value in ``unit`` (the inverse of to_si, fields in tesla included)."""
+    if unit == si_unit:
+        return float(value)
+    ureg = registry()
+    q = ureg.Quantity(1.0, _canon(unit))
+    if si_unit == "A/m" and q.check(ureg.tesla.dimensionality):
+        return float(ureg.Quantity(value * MU0, "T").to(unit).magnitude)
+    if si_unit == "K" and unit == "degC":
+        return float(value) - 273.15
+    return convert(value, si_unit, unit)

@@ -33,7 +33,8 @@ class DeviceKind:
     def table(self) -> ParamTable:
         return ParamTable(self.param_specs())
 
-    def derive_defaults(self, values: dict[str, float], options: dict[str, str]) -> dict[str, float]:
+    def derive_defaults(self, values: dict[str, float], options: dict[str, str],
+                        given: frozenset[str] = frozenset()) -> dict[str, float]:
         """Fill parameters computed from others at build time (e.g. demagnetising factors)."""
         return values
 

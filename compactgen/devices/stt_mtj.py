@@ -37,9 +37,9 @@ class SttMtj(DeviceKind):
         ]
         return free_layer_specs() + mtj_read_specs() + stt + limit_specs() + orientation_specs()
 
-    def derive_defaults(self, values, options):
+    def derive_defaults(self, values, options, given=frozenset()):
         out = dict(values)
-        if "demag_nz" not in values.get("_given", ()):
+        if "demag_nz" not in given:
             out["demag_nz"] = cylinder_nz(values, options.get("demag", "cylinder"))
         return out
 
