@@ -45,6 +45,7 @@ class ParamSpec:
     card_unit: str | None = None  # unit the starter card writes the default in
     group: str = "general"
     required: bool = False  # a card must give it (no sensible default exists)
+    computed: str = ""  # non-empty: the default is computed at build time (says from what)
 
     def __post_init__(self):
         if not _NAME.match(self.name) or self.name in RESERVED:
@@ -70,10 +71,16 @@ class ParamSpec:
             )
         return value
 
-    def range_text(self) -> str:
+    def range_text(self, unit: str | None = None) -> str:
+        """The allowed range, in ``unit`` (default: the SI unit)."""
+        from .units import from_si
+
+        unit = unit or self.unit
+        conv = (lambda x: x) if unit == self.unit else (lambda x: x if math.isinf(x) else from_si(x, self.unit, unit))
         lb = "(" if self.lo_open else "["
         rb = ")" if self.hi_open else "]"
-        return f"{lb}{_fmt(self.lo)}, {_fmt(self.hi)}{rb} {self.unit}"
+        u = "" if unit in ("1", "") else f" {unit}"
+        return f"{lb}{_fmt(conv(self.lo))}, {_fmt(conv(self.hi))}{rb}{u}"
 
     def card_text(self, value: float | None = None) -> str:
         """The value as written in a card, in the card unit."""

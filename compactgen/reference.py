@@ -32,14 +32,23 @@ def numeric_parameters(ir: ModelIR, overrides: dict[str, float] | None = None) -
         spec.check(value, where=f"parameter {spec.name}")
         num[spec.symbol] = float(value)
     tdep = ir.temperature_dependent()
+    pending = list(ir.constraints)
+
+    def check_constraints():
+        for item in list(pending):
+            expr, message = item
+            if expr.free_symbols <= set(num):
+                pending.remove(item)
+                value = _evaluate(expr, num, "constraint")
+                if not value > 0:
+                    raise RangeError(f"{message} (got {value:.6g})")
+
     for sym, expr in ir.derived:
+        check_constraints()
         if sym in tdep:
             continue
         num[sym] = _evaluate(expr, num, str(sym))
-    for expr, message in ir.constraints:
-        value = _evaluate(expr, num, "constraint")
-        if not value > 0:
-            raise RangeError(f"{message} (got {value:.6g})")
+    check_constraints()
     return num
 
 

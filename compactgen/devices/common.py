@@ -25,7 +25,7 @@ def free_layer_specs() -> list[ParamSpec]:
         ParamSpec("t_free", "m", 1.3 * NM, 0.3 * NM, 10 * NM, "free-layer thickness", card_unit="nm", required=True, group="geometry"),
         ParamSpec("ms", "A/m", 1.0e6, 1e4, 3e6, "saturation magnetisation of the free layer",
                   source="CoFeB ~1.0-1.3 MA/m: S. Ikeda et al., Nat. Mater. 9, 721 (2010) (from memory)",
-                  card_unit="A/m", required=True, group=g),
+                  card_unit="MA/m", required=True, group=g),
         ParamSpec("ki", "J/m^2", 1.3e-3, 0.0, 1e-2, "interface anisotropy energy density",
                   source="CoFeB/MgO ~1.0-1.3 mJ/m^2: S. Ikeda et al., Nat. Mater. 9, 721 (2010) (from memory)",
                   card_unit="mJ/m^2", required=True, group=g),
@@ -34,7 +34,8 @@ def free_layer_specs() -> list[ParamSpec]:
         ParamSpec("alpha", "1", 0.01, 1e-4, 1.0, "Gilbert damping",
                   source="CoFeB ~0.005-0.03 (from memory)", required=True, group=g),
         ParamSpec("demag_nz", "1", 1.0, 0.0, 1.0,
-                  "axial demagnetising factor N_z (N_x = N_y = (1 - N_z)/2); set from the geometry by [model] demag",
+                  "axial demagnetising factor N_z (N_x = N_y = (1 - N_z)/2)",
+                  computed="from diameter and t_free by [model] demag, unless given",
                   source="cylinder: D.-X. Chen, J. A. Brug, R. B. Goldfarb, IEEE Trans. Magn. 27, 3601 (1991)",
                   group=g),
         ParamSpec("hx", "A/m", 0.0, -1e7, 1e7, "external field along x (in plane)", card_unit="mT", group="fields"),
@@ -68,7 +69,7 @@ def limit_specs(v_max: float = 1.2, j_max: float = 1.5e11) -> list[ParamSpec]:
                   "largest |bias| across the barrier the model was calibrated for (stay well below breakdown)",
                   card_unit="V", group=g),
         ParamSpec("j_max", "A/m^2", j_max, 1e6, 1e14,
-                  "largest |current density| the model was calibrated for", card_unit="A/m^2", group=g),
+                  "largest |current density| the model was calibrated for", card_unit="MA/cm^2", group=g),
     ]
 
 

@@ -1,0 +1,179 @@
+"""The `compactgen` command."""
+from __future__ import annotations
+
+import argparse
+import shutil
+import sys
+from pathlib import Path
+
+from . import __version__
+from .errors import CompactgenError, VerificationFailed
+
+EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(prog="compactgen", description=(
+        "Compact models of spintronic devices: device card -> Verilog-A + ngspice subcircuit, "
+        "verified against the reference solution in ngspice and VACASK."))
+    parser.add_argument("--version", action="version", version=f"compactgen {__version__}")
+    sub = parser.add_subparsers(dest="command", required=True)
+
+    p = sub.add_parser("init", help="write a commented starter card for a device kind")
+    p.add_argument("kind")
+    p.add_argument("-o", "--output", required=True, help="card file to write (refuses to overwrite)")
+    p.add_argument("--name", help="model name (default: from the kind)")
+    p.set_defaults(func=cmd_init)
+
+    p = sub.add_parser("build", help="render NAME.va, NAME.lib, NAME.md and manifest.json")
+    p.add_argument("card")
+    p.add_argument("-o", "--output", required=True, help="output folder")
+    p.set_defaults(func=cmd_build)
+
+    p = sub.add_parser("verify", help="run the bench suite on the reference, ngspice and VACASK")
+    p.add_argument("target", help="a card, or a folder written by `compactgen build`")
+    p.add_argument("--sim", default="ngspice,vacask", help="simulators, comma separated (default: both)")
+    p.add_argument("--report", help="write an HTML report with plots to this file")
+    p.set_defaults(func=cmd_verify)
+
+    p = sub.add_parser("demo", help="the whole job on the bundled example")
+    p.add_argument("-o", "--output", default="compactgen_demo", help="output folder (default: ./compactgen_demo)")
+    p.set_defaults(func=cmd_demo)
+
+    for extra in _extensions():
+        extra(sub)
+
+    args = parser.parse_args(argv)
+    try:
+        return int(args.func(args) or 0)
+    except CompactgenError as exc:
+        print(f"compactgen {args.command}: error: {exc}", file=sys.stderr)
+        return exc.exit_status
+    except KeyboardInterrupt:
+        print("compactgen: interrupted", file=sys.stderr)
+        return 130
+
+
+def _extensions():
+    """Subcommands that live with their feature (fit, release, ...): each module may define
+    ``add_commands(subparsers)``."""
+    out = []
+    for mod in ("compactgen.calibrate.commands", "compactgen.release", "compactgen.thermal_commands"):
+        try:
+            m = __import__(mod, fromlist=["add_commands"])
+        except ModuleNotFoundError as exc:
+            if exc.name and mod.startswith(exc.name):
+                continue
+            raise
+        if hasattr(m, "add_commands"):
+            out.append(m.add_commands)
+    return out
+
+
+def say(msg: str) -> None:
+    print(msg, file=sys.stderr, flush=True)
+
+
+def cmd_init(args) -> int:
+    from .card import parse_card, starter_card
+
+    out = Path(args.output)
+    if out.exists():
+        raise CompactgenError(f"{out}: exists already; choose another name (init never overwrites)")
+    text = starter_card(args.kind, args.name)
+    parse_card(text, str(out))  # the starter must itself be valid
+    out.parent.mkdir(parents=True, exist_ok=True)
+    out.write_text(text)
+    say(f"wrote {out}: a starter card for {args.kind}; edit the values, then `compactgen build {out} -o DIR`")
+    return 0
+
+
+def cmd_build(args) -> int:
+    from .build import build_files, write_files
+    from .card import load_card
+
+    card = load_card(args.card)
+    files = build_files(card)
+    files[f"{card.name}.card.toml"] = card.text
+    for p in write_files(files, args.output):
+        say(f"wrote {p}")
+    return 0
+
+
+def load_target(target: str):
+    """A card file, or a build folder (its NAME.card.toml, checked against its model files)."""
+    from .build import build_files
+    from .card import load_card
+
+    path = Path(target)
+    if path.is_dir():
+        cards = sorted(path.glob("*.card.toml"))
+        if len(cards) != 1:
+            raise CompactgenError(f"{path}: expected one NAME.card.toml written by `compactgen build`, "
+                                  f"found {len(cards)}")
+        card = load_card(cards[0])
+        fresh = build_files(card)
+        for name in (f"{card.name}.va", f"{card.name}.lib"):
+            f = path / name
+            if not f.is_file() or f.read_text() != fresh[name]:
+                raise CompactgenError(f"{f}: missing, edited by hand, or built by another compactgen version; "
+                                      f"rebuild with `compactgen build {cards[0]} -o {path}`")
+        return card
+    return load_card(path)
+
+
+def cmd_verify(args) -> int:
+    from .verify import progress_printer, run_suite
+
+    card = load_target(args.target)
+    sims = tuple(s.strip() for s in args.sim.split(",") if s.strip())
+    for s in sims:
+        if s not in ("ngspice", "vacask"):
+            raise CompactgenError(f"--sim: unknown simulator {s!r}; expected ngspice and/or vacask")
+    result = verify_card(card, sims, args.report)
+    return 0 if result.passed else VerificationFailed.exit_status
+
+
+def verify_card(card, sims=("ngspice", "vacask"), report: str | None = None, title: str = ""):
+    from .verify import progress_printer, run_suite
+
+    ir = card.ir()
+    say(f"verifying {ir.name} ({ir.kind}): setting up benches")
+    benches = card.device.benches(ir, card.values)
+    result = run_suite(ir, benches, simulators=sims, progress=progress_printer())
+    print(result.table())
+    if report:
+        from .build import write_files
+        from .report import verify_html
+
+        rp = Path(report)
+        write_files({rp.name: verify_html(result, title)}, rp.parent if str(rp.parent) else ".")
+        say(f"wrote {rp}")
+    return result
+
+
+def cmd_demo(args) -> int:
+    """The bundled example end to end; later stages (fit, release) join as they exist."""
+    from .build import build_files, write_files
+    from .card import load_card
+
+    out = Path(args.output)
+    out.mkdir(parents=True, exist_ok=True)
+    ok = True
+    for src in sorted(EXAMPLES.glob("*_demo.toml")):
+        card_path = out / src.name
+        shutil.copyfile(src, card_path)
+        card = load_card(card_path)
+        say(f"== {card.name} ({card.kind}) ==")
+        files = build_files(card)
+        files[f"{card.name}.card.toml"] = card.text
+        write_files(files, out / card.name)
+        say(f"built {out / card.name}")
+        result = verify_card(card, report=str(out / card.name / "verify.html"), title=f"{card.name}: verification")
+        ok &= result.passed
+    say(f"demo finished in {out}: {'every bench passed' if ok else 'SOME BENCHES FAILED'}")
+    return 0 if ok else VerificationFailed.exit_status
+
+
+if __name__ == "__main__":
+    sys.exit(main())
