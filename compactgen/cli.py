@@ -171,8 +171,21 @@ def cmd_demo(args) -> int:
         say(f"built {out / card.name}")
         result = verify_card(card, report=str(out / card.name / "verify.html"), title=f"{card.name}: verification")
         ok &= result.passed
+        if card.kind == "stt-mtj" and result.passed:
+            ok &= _demo_release(card_path, out, result)
     say(f"demo finished in {out}: {'every bench passed' if ok else 'SOME BENCHES FAILED'}")
     return 0 if ok else VerificationFailed.exit_status
+
+
+def _demo_release(card_path: Path, out: Path, result) -> bool:
+    """Demo releases 1.0.0 (the card) and 1.1.0 (an edited copy) with their comparison, if the
+    release feature is present."""
+    try:
+        from .release.commands import demo_edited_card, demo_release
+    except ModuleNotFoundError:
+        return True
+    v2 = demo_edited_card(card_path, out / f"{card_path.stem}_v2.toml")
+    return demo_release(card_path, v2, out, suite_v1=result)
 
 
 if __name__ == "__main__":

@@ -222,7 +222,8 @@ def run_suite(ir: ModelIR, benches: list[Bench], simulators=SIMULATORS, progress
                 f.result()
     for b in benches:
         rows = _compare(b, traces[b.name], errors[b.name], simulators)
-        result.runs.append(BenchRun(b, traces[b.name], rows))
+        ordered = {k: traces[b.name][k] for k in ("reference", *simulators) if k in traces[b.name]}  # not finish order
+        result.runs.append(BenchRun(b, ordered, rows))
         say(f"{b.name}: {'pass' if all(r.passed for r in rows) else 'FAIL'}")
     return result
 

@@ -14,13 +14,16 @@ from scipy.optimize import brentq
 from ..benches import (Bench, Dc, Metric, Pulse, crossing_time, dc_curve_deviation_factory, dc_resistance_at,
                        extreme_value, final_value, switching_time)
 from ..ir import Branch, Figure, ModelIR, Output, Terminal
-from ..physics import geometry, macrospin, switching, torques
+from ..physics import geometry, macrospin, switching, torques, tunnelling
 from ..physics.constants import const_values
 from ..reference import ReferenceModel, figures
 from .base import DeviceKind, Option, register
 from .common import (Parts, cylinder_nz, free_layer, free_layer_specs, limit_specs, macrospin_states,
                      mtj_conductance, mtj_read_specs, orientation_specs)
 from ..params import ParamSpec
+
+
+READ_BIAS = 0.1  # [V] read bias of the key figure tmr_read (a point of the R-V benches)
 
 
 @register
@@ -68,6 +71,8 @@ class SttMtj(DeviceKind):
         figures = [
             Figure("r_p", r_p, "ohm", "resistance, parallel state, zero bias"),
             Figure("r_ap", r_p * (1 + P["tmr0"]), "ohm", "resistance, antiparallel state, zero bias"),
+            Figure("tmr_read", tunnelling.tmr_bias(P["tmr0"], READ_BIAS, P["v_half"]), "1",
+                   f"TMR ratio at the read bias {READ_BIAS:g} V"),
             Figure("hk_eff", fl["hk_eff"], "A/m", "effective anisotropy field"),
             Figure("delta", fl["delta_nom"], "1", "thermal stability factor E_b/(k_B tnom)"),
             Figure("i_c0", i_c0, "A", "zero-temperature STT critical current",

@@ -1,0 +1,248 @@
+"""`compactgen release`, `compactgen compare`, `compactgen check-release`, and the demo step."""
+from __future__ import annotations
+
+import sys
+import time
+from dataclasses import dataclass
+from pathlib import Path
+
+from ..errors import CompactgenError, InputError, ReleaseError
+from .bundle import (MANIFEST, SEAL, Bundle, ReleaseRefused, check_bundle, created_stamp, load_bundle, manifest_text,
+                     publish, release_manifest, seal, sha256)
+from .compare import Comparison, compare_bundles
+from .semver import parse_version
+
+
+def _say(msg: str) -> None:
+    print(msg, file=sys.stderr, flush=True)
+
+
+@dataclass
+class ReleaseOutcome:
+    path: Path
+    manifest: dict
+    comparison: Comparison | None
+    suite: object  # verify.SuiteResult
+
+
+def make_release(card_path: str | Path, version: str, out_root: str | Path, against: str | Path | None = None,
+                 accept: str | None = None, suite=None, progress=_say) -> ReleaseOutcome:
+    """Verify a card in both simulators and freeze it as ``out_root/<name>-<version>/``.
+
+    With ``against`` (a previous bundle) the new release is compared with it; a change
+    outside tolerance or an interface break refuses the release (ReleaseRefused, with the
+    comparison report written beside the releases) unless ``accept`` gives the reason, which
+    the manifest and the report record.  ``suite`` is a SuiteResult already computed for this
+    very card (the demo reuses its verification run); by default the suite runs here.
+    """
+    from ..build import build_files, write_files
+    from ..card import load_card
+    from ..reference import figures as eval_figures
+    from ..report import verify_html
+    from ..verify import progress_printer, run_suite
+    from .changes import html, markdown, summary_text
+    from .curves import curve_table, write_csv
+
+    say = progress or (lambda m: None)
+    ver = parse_version(version)
+    if accept is not None and not accept.strip():
+        raise InputError("--accept: give the reason the changes are intended (it goes into the manifest)")
+    if accept and against is None:
+        raise InputError("--accept records why changes against a previous release are intended; "
+                         "it needs --against PREVIOUS_BUNDLE")
+    out_root = Path(out_root)
+    if out_root.exists() and not out_root.is_dir():
+        raise ReleaseError(f"{out_root}: exists and is not a folder")
+    card = load_card(card_path)
+    label = f"{card.name}-{ver}"
+    target = out_root / label
+    if target.exists():
+        raise ReleaseError(f"{target}: release {ver} of {card.name} exists already; a release is never "
+                           "overwritten, give a new --version")
+    prev = None
+    if against is not None:
+        prev = load_bundle(against)
+        if not ver > prev.version:
+            raise InputError(f"--version {ver}: not newer than the release compared against ({prev.label}, "
+                             f"{against}); semantic-version order must increase")
+    t0 = time.perf_counter()
+    reused = suite is not None
+    ir = card.ir()
+    if suite is None:
+        say(f"release {card.name} {ver}: running the bench suite in ngspice and VACASK")
+        benches = card.device.benches(ir, card.values)
+        suite = run_suite(ir, benches, progress=progress_printer() if progress else None)
+    elif suite.model != ir.name:
+        raise ValueError(f"suite result is for {suite.model}, not {ir.name}")
+    if not suite.passed:
+        failed = [f"{r.bench}: {r.metric}" for r in suite.rows if not r.passed]
+        if progress:
+            print(suite.table())
+        raise ReleaseRefused(f"{card_path}: {len(failed)} of {len(suite.rows)} bench figures fail "
+                             f"({', '.join(failed[:4])}{', ...' if len(failed) > 4 else ''}); a model that fails "
+                             f"its benches is not released. See them with `compactgen verify {card_path} "
+                             "--report verify.html`")
+    ran = "result of the verification just run" if reused else f"{time.perf_counter() - t0:.1f} s"
+    say(f"release {card.name} {ver}: bench suite passed ({len(suite.rows)} figures, {ran}); "
+        "writing curves and reports")
+    text = {k: v for k, v in build_files(card).items() if k != MANIFEST}
+    text[f"{card.name}.card.toml"] = card.text
+    for run in suite.runs:
+        meta = {"model": f"{card.name} {ver}", "bench": run.bench.name, "title": run.bench.title,
+                "sources": ", ".join(["reference"] + sorted(s for s in run.traces if s != "reference")),
+                "grid": "transient, uniform output step" if run.bench.analysis == "tran" else "DC sweep points"}
+        text[f"curves/{run.bench.name}.csv"] = write_csv(curve_table(ir, run, meta))
+    manifest = release_manifest(card, ir, ver, suite, eval_figures(ir))
+    files = {k: v.encode("utf-8") for k, v in text.items()}
+    comparison = None
+    refused = out_root / f"{label}.refused.html"
+    if prev is not None:
+        comparison = compare_bundles(prev, Bundle(manifest, files=files), accepted=accept)
+        specs = {b: r["plot"] for b, r in manifest["benches"].items()}
+        if progress:
+            print(summary_text(comparison))
+        if not comparison.passed:
+            write_files({refused.name: html(comparison, specs)}, out_root)
+            raise ReleaseRefused(
+                f"release {label} refused: {comparison.verdict()}. Report: {refused}. If the changes are "
+                f"intended, run again with --accept \"why\" (the reason goes into the manifest and the report)")
+        files["changes.md"] = markdown(comparison).encode("utf-8")
+        files["changes.html"] = html(comparison, specs).encode("utf-8")
+        manifest["comparison"] = dict(comparison.record(), against_manifest_sha256=prev.manifest.get(SEAL))
+    files["verify.html"] = verify_html(suite, f"{card.name} {ver}: verification").encode("utf-8")
+    manifest["files"] = {k: sha256(v) for k, v in sorted(files.items())}
+    manifest["created"] = created_stamp()
+    files[MANIFEST] = manifest_text(seal(manifest)).encode("utf-8")
+    path = publish(files, out_root, label)
+    refused.unlink(missing_ok=True)
+    say(f"released {path} ({len(files)} files, {time.perf_counter() - t0:.1f} s)")
+    return ReleaseOutcome(path, manifest, comparison, suite)
+
+
+def compare_dirs(old: str | Path, new: str | Path, accept: str | None = None) -> Comparison:
+    return compare_bundles(load_bundle(old), load_bundle(new), accepted=accept)
+
+
+# ---- command line ------------------------------------------------------------------------------
+def add_commands(sub) -> None:
+    p = sub.add_parser("release", help="verify a card and freeze it as an immutable, versioned bundle")
+    p.add_argument("card")
+    p.add_argument("--version", required=True, dest="release_version", metavar="X",
+                   help="semantic version of this release, e.g. 1.0.0")
+    p.add_argument("-o", "--output", required=True, help="folder holding the releases; the bundle is "
+                   "OUTPUT/<name>-<version>/")
+    p.add_argument("--against", help="a previous release bundle to compare with")
+    p.add_argument("--accept", help="reason why changes outside tolerance or interface breaks are intended "
+                   "(recorded in the manifest and the report)")
+    p.set_defaults(func=cmd_release)
+
+    p = sub.add_parser("compare", help="compare two release bundles (reads the bundles only)")
+    p.add_argument("old")
+    p.add_argument("new")
+    p.add_argument("--report", help="write the HTML comparison report (with plots) to this file")
+    p.add_argument("--markdown", help="write the comparison as Markdown to this file")
+    p.add_argument("--accept", help="reason the changes are intended: exit 0 and record it in the report")
+    p.set_defaults(func=cmd_compare)
+
+    p = sub.add_parser("check-release", help="re-hash release bundles; report changed, missing or extra files")
+    p.add_argument("bundles", nargs="+")
+    p.set_defaults(func=cmd_check_release)
+
+
+def cmd_release(args) -> int:
+    make_release(args.card, args.release_version, args.output, against=args.against, accept=args.accept)
+    return 0
+
+
+def cmd_compare(args) -> int:
+    from ..build import write_files
+    from .changes import html, markdown, summary_text
+
+    c = compare_dirs(args.old, args.new, accept=args.accept)
+    print(summary_text(c))
+    for out, content in ((args.report, lambda: html(c, _plot_specs(args.new))), (args.markdown, lambda: markdown(c))):
+        if out:
+            p = Path(out)
+            write_files({p.name: content()}, p.parent if str(p.parent) else ".")
+            _say(f"wrote {p}")
+    return 0 if c.passed else ReleaseRefused.exit_status
+
+
+def _plot_specs(bundle_dir) -> dict[str, list[str]]:
+    manifest = load_bundle(bundle_dir, check=False).manifest
+    return {b: r.get("plot", []) for b, r in manifest["benches"].items()}
+
+
+def cmd_check_release(args) -> int:
+    bad = 0
+    for d in args.bundles:
+        try:
+            result = check_bundle(d)
+        except ReleaseError as exc:
+            print(f"{d}: {exc}")
+            bad += 1
+            continue
+        print(result.text())
+        bad += not result.ok
+    return 0 if not bad else 1
+
+
+# ---- demo ---------------------------------------------------------------------------------------
+DEMO_ACCEPT = ("demo scenario: RA and TMR re-measured on a new (synthetic) wafer lot; the resistance and "
+               "read-figure changes are intended")
+
+
+def demo_edited_card(src: str | Path, dst: str | Path, ra_factor: float = 1.10, tmr0: float = 1.42) -> Path:
+    """A copy of a demo card with RA scaled and TMR changed, as if re-measured (invented numbers)."""
+    from ..card import card_text, load_card, parse_card
+
+    card = load_card(src)
+    values = dict(card.values)
+    values["ra"] = card.values["ra"] * ra_factor
+    values["tmr0"] = tmr0
+    text = card_text(card.kind, card.name, values, card.description, card.options, card.uncertainty,
+                     card.provenance, given=card.given, header=(
+                         f"DEMO CARD, edited copy of {Path(src).name}: ra x {ra_factor:g} and tmr0 = {tmr0:g}, "
+                         "as if re-measured.\nInvented values of the compactgen demo scenario, not a measured stack."))
+    dst = Path(dst)
+    parse_card(text, str(dst))
+    dst.parent.mkdir(parents=True, exist_ok=True)
+    dst.write_text(text, encoding="utf-8")
+    return dst
+
+
+def _existing(card_path, version, releases: Path) -> Path | None:
+    """An intact bundle of exactly this card and version made by an earlier demo run."""
+    from ..card import load_card
+
+    card = load_card(card_path)
+    path = releases / f"{card.name}-{parse_version(version)}"
+    if not path.exists():
+        return None
+    if check_bundle(path).ok and load_bundle(path).manifest["card"]["sha256"] == card.sha256():
+        _say(f"{path}: released earlier from the same card; kept as it is")
+        return path
+    raise ReleaseError(f"{path}: exists from an earlier run but holds another card or does not check out; "
+                       "releases are never overwritten: remove the demo folder or choose another")
+
+
+def demo_release(card_v1: Path, card_v2: Path, out_dir: Path, suite_v1=None) -> bool:
+    """Release 1.0.0 of ``card_v1`` and 1.1.0 of ``card_v2`` against it (changes accepted with
+    DEMO_ACCEPT) into ``out_dir/releases``; print the comparison summary; True if all went fine."""
+    from .changes import summary_text
+
+    releases = Path(out_dir) / "releases"
+    try:
+        v1 = _existing(card_v1, "1.0.0", releases) or make_release(card_v1, "1.0.0", releases, suite=suite_v1).path
+        v2 = _existing(card_v2, "1.1.0", releases)
+        if v2 is None:  # make_release prints the comparison summary
+            v2 = make_release(card_v2, "1.1.0", releases, against=v1, accept=DEMO_ACCEPT, progress=_say).path
+            comparison = compare_dirs(v1, v2, accept=DEMO_ACCEPT)
+        else:
+            comparison = compare_dirs(v1, v2, accept=DEMO_ACCEPT)
+            print(summary_text(comparison))
+    except CompactgenError as exc:
+        _say(f"release step failed: {exc}")
+        return False
+    _say(f"comparison report: {v2 / 'changes.html'} (Markdown: {v2 / 'changes.md'})")
+    return comparison.passed and check_bundle(v1).ok and check_bundle(v2).ok
