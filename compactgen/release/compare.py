@@ -113,6 +113,13 @@ def _error(old, new, band: Band) -> float:
 
 
 # ---- rows ------------------------------------------------------------------------------------
+def rel_change(old: float | None, new: float | None) -> float | None:
+    """(new - old) / |old|, or None when either is missing or old is 0."""
+    if old is None or new is None or old == 0:
+        return None
+    return (new - old) / abs(old)
+
+
 @dataclass
 class ParamRow:
     name: str
@@ -126,9 +133,7 @@ class ParamRow:
 
     @property
     def rel(self) -> float | None:
-        if self.old is None or self.new is None or self.old == 0:
-            return None
-        return (self.new - self.old) / abs(self.old)
+        return rel_change(self.old, self.new)
 
 
 @dataclass
@@ -160,9 +165,7 @@ class FigureRow:
 
     @property
     def rel(self) -> float | None:
-        if self.old is None or self.new is None or self.old == 0:
-            return None
-        return (self.new - self.old) / abs(self.old)
+        return rel_change(self.old, self.new)
 
 
 @dataclass
