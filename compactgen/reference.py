@@ -174,7 +174,8 @@ class ReferenceModel:
         ts, ys = [], []
         last_t = None
         y = self.initial.copy()
-        step = max_step if max_step is not None else np.inf
+        # a cap of a few precession periods keeps the adaptive first steps from leaving the sphere
+        step = max_step if max_step is not None else 5.0 * self.tsc
         for a, b in zip(bps[:-1], bps[1:]):
             if b - a <= 0:
                 continue

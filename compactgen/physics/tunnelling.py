@@ -38,10 +38,11 @@ def julliere_tmr(p1, p2):
 def mtj_conductance(ra, area, tmr0, v_half, v, cos_theta):
     """Conductance of a pillar: R_P = RA/area bias-independent, R_AP(V) = R_P (1 + TMR(V)),
     interpolated in cos(theta) (common compact-model practice, no source)."""
-    r_p = resistance_from_ra(ra, area)
-    g_p = 1 / r_p
-    g_ap = 1 / (r_p * (1 + tmr_bias(tmr0, v, v_half)))
-    return conductance_angle(g_p, g_ap, cos_theta)
+    g_p = 1 / resistance_from_ra(ra, area)
+    # conductance_angle(g_p, g_p/(1 + TMR(V)), c) with 1/(1 + TMR(V)) = u/(u + tmr0),
+    # u = 1 + (V/V_h)^2: the same equation, written so the bias law appears once
+    u = 1 + (v / v_half) ** 2
+    return g_p / 2 * ((1 + cos_theta) + (1 - cos_theta) * u / (u + tmr0))
 
 
 def sharp_wall_fraction(q, length, width):
