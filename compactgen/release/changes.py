@@ -13,6 +13,9 @@ from .compare import Band, Comparison, CurveRow
 _PREFIX = ((1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"), (1e-9, "n"),
            (1e-12, "p"), (1e-15, "f"))
 _ENG_UNITS = ("s", "A", "V", "ohm", "Hz", "W")
+#: changes below this (relative, or in units of the band) are rounding noise of the solvers and
+#: are printed as such rather than as digits that would differ from machine to machine
+NOISE = 1e-6
 
 
 def value_text(x: float | None, unit: str) -> str:
@@ -34,6 +37,8 @@ def pct(rel: float | None) -> str:
         return "—"
     if rel == 0:
         return "0"
+    if abs(rel) < NOISE:
+        return "~0"
     return f"{rel * 100:+.3g} %"
 
 
@@ -42,7 +47,14 @@ def ratio_text(err: float) -> str:
         return "0"
     if math.isinf(err):
         return "inf"
+    if err < NOISE:
+        return f"<{NOISE:g}"
     return f"{err:.2g}"
+
+
+def _by_error(rows):
+    """Largest error first; errors equal to 6 digits keep their table order."""
+    return sorted(rows, key=lambda r: -float(f"{r.error:.6g}"))
 
 
 @dataclass
@@ -80,10 +92,10 @@ def summary_section(c: Comparison) -> Section:
     bad.append(False)
     for label, group in (("key figures", c.figures), ("bench figures", c.metrics)):
         out = [r for r in group if not r.ok]
-        moved = sorted((r for r in group if r.ok and r.error > 0), key=lambda r: -r.error)
+        moved = _by_error(r for r in group if r.ok and r.error >= NOISE)
         if out:
             verdict = f"{len(out)} of {len(group)} OUTSIDE BAND"
-            det = [_fig_short(r) for r in sorted(out, key=lambda r: -r.error)]
+            det = [_fig_short(r) for r in _by_error(out)]
         else:
             verdict = f"all {len(group)} within band" + (" (identical)" if not moved else "")
             det = [_fig_short(r) for r in moved]
@@ -96,7 +108,7 @@ def summary_section(c: Comparison) -> Section:
     if out:
         verdict = f"{len(out)} of {judged} judged benches OUTSIDE BAND"
         det = [f"{r.bench} ({r.column}, {ratio_text(r.error)} x band)" if r.column else f"{r.bench} ({r.status})"
-               for r in sorted(out, key=lambda r: -r.error)]
+               for r in _by_error(out)]
     else:
         verdict = f"all {judged} judged benches within band" + (f" ({same} identical)" if same else "")
         det = []
@@ -116,7 +128,9 @@ def change_text(r) -> str:
         return "—"
     if r.band.rtol == 0 or r.rel is None:
         d = r.new - r.old
-        return "0" if d == 0 else f"{d:+.2g}"
+        if d == 0:
+            return "0"
+        return "~0" if abs(d) < NOISE * max(r.band.atol, 1e-300) else f"{d:+.2g}"
     return pct(r.rel)
 
 
@@ -161,7 +175,7 @@ def sections(c: Comparison) -> list[Section]:
                   "is the largest of them (its source in brackets). 'old' and 'new' are the reference values.")
     s.headers = ["bench", "figure", "old", "new", "change", "band", "change / band", "verdict"]
     s.rows = [[r.group, r.name, value_text(r.old, r.unit), value_text(r.new, r.unit), change_text(r),
-               r.band.text(r.unit), ratio_text(r.error) + (f" ({r.source})" if r.source and r.error else ""),
+               r.band.text(r.unit), ratio_text(r.error) + (f" ({r.source})" if r.source and r.error >= NOISE else ""),
                r.status] for r in c.metrics]
     s.bad = [not r.ok for r in c.metrics]
     s.after = [f"{b}: {n}" for b, n in c.stimulus_changes.items()]

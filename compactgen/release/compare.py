@@ -439,7 +439,8 @@ def compare_metrics(old: dict, new: dict, stimulus: dict[str, str]) -> list[Figu
                                       note=note))
                 continue
             errs = {s: _error(a.get(s), b.get(s), band) for s in sources}
-            worst = max(errs, key=lambda s: errs[s])
+            top = max(errs.values())
+            worst = next(s for s in sources if errs[s] >= top * (1 - 1e-6))  # ties: the first source
             rows.append(FigureRow(bench, metric, unit, a["reference"], b["reference"], band, errs[worst],
                                   _status(errs[worst]), worst if errs[worst] > 0 else "", note=note))
     return rows
@@ -485,7 +486,7 @@ def compare_curve_tables(bench: str, old: CurveTable, new: CurveTable, stimulus_
         err = float(np.max(ratio)) if ratio.size else 0.0
         if np.isnan(err):
             err = math.inf
-        if worst.band is None or err > worst.error:
+        if worst.band is None or err > worst.error * (1 + 1e-6):  # ties: the first column
             worst.column, worst.unit, worst.band, worst.error = col, unit, band, err
             worst.max_diff = float(np.max(diff))
     if missing:
