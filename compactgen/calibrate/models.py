@@ -24,6 +24,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import sympy as sp
 
+from ..constants import MU0
 from ..errors import DataError
 from ..params import ParamSpec
 from ..physics import coercivity, switching, switching_probability, thermal
@@ -259,26 +260,42 @@ def _with(values: dict[str, float], **kw) -> dict[str, float]:
 def _bias_block(fn: SttFunctions, ds: Dataset) -> Block:
     v = ds.columns["voltage"]
     info = {"dataset": ds, "x": v, "xlabel": "bias [V]", "xunit": "V"}
+    vd = np.linspace(float(v.min()), float(v.max()), 161)
     if "tmr" in ds.columns:
         def predict(values):
             a = fn.args(values)
             return fn.g(*a, v, 1.0) / fn.g(*a, v, -1.0) - 1.0
+
+        def curves(values):
+            a = fn.args(values)
+            return {"TMR": (vd, fn.g(*a, vd, 1.0) / fn.g(*a, vd, -1.0) - 1.0)}
         y = ds.columns["tmr"]
         return Block(f"{ds.name}: TMR vs bias", "gaussian", predict, y, sigma=0.01 * max(np.max(np.abs(y)), 1e-3),
-                     uses=("tmr0", "v_half"), info={**info, "ylabel": "TMR [-]", "what": "tmr"})
+                     uses=("tmr0", "v_half"), info={**info, "ylabel": "TMR [-]", "what": "tmr", "curves": curves,
+                                                    "group": np.full(v.size, "TMR")})
     mz = np.where(ds.columns["state"] == "P", 1.0, -1.0)
+    group = np.where(mz > 0, "P", "AP")
     if "resistance" in ds.columns:
         def predict(values):
             return 1.0 / fn.g(*fn.args(values), v, mz)
+
+        def curves(values):
+            a = fn.args(values)
+            return {"P": (vd, 1.0 / fn.g(*a, vd, 1.0)), "AP": (vd, 1.0 / fn.g(*a, vd, -1.0))}
         return Block(f"{ds.name}: R vs bias", "gaussian", predict, ds.columns["resistance"], sigma=0.01, log=True,
-                     uses=("ra", "tmr0", "v_half"), info={**info, "ylabel": "R [ohm]", "what": "resistance",
-                                                          "groups": mz})
+                     uses=("ra", "tmr0", "v_half"), info={**info, "ylabel": "resistance [ohm]", "what": "resistance",
+                                                          "group": group, "curves": curves})
     i = ds.columns["current"]
 
     def predict_i(values):
         return v * fn.g(*fn.args(values), v, mz)
+
+    def curves_i(values):
+        a = fn.args(values)
+        return {"P": (vd, vd * fn.g(*a, vd, 1.0)), "AP": (vd, vd * fn.g(*a, vd, -1.0))}
     return Block(f"{ds.name}: I vs bias", "gaussian", predict_i, i, sigma=0.01 * float(np.max(np.abs(i))),
-                 uses=("ra", "tmr0", "v_half"), info={**info, "ylabel": "I [A]", "what": "current", "groups": mz})
+                 uses=("ra", "tmr0", "v_half"), info={**info, "ylabel": "current [A]", "what": "current",
+                                                      "group": group, "curves": curves_i})
 
 
 def _loop_blocks(fn: SttFunctions, ds: Dataset) -> list[Block]:
@@ -288,7 +305,7 @@ def _loop_blocks(fn: SttFunctions, ds: Dataset) -> list[Block]:
     if "sweep_rate" in ds.meta:
         rate = abs(float(ds.meta_si("sweep_rate")))
         hc = lambda a, vals: fn.hc_ramp(*a, vals["attempt_time"], rate)  # noqa: E731
-        how = f"sweep rate {rate:.4g} A/m/s"
+        how = f"sweep rate {rate * MU0:.4g} T/s"
     else:
         hold = float(ds.meta_si("hold_time"))
         hc = lambda a, vals: fn.hc_hold(*a, vals["attempt_time"], hold)  # noqa: E731
@@ -344,10 +361,28 @@ def _switching_block(fn: SttFunctions, ds: Dataset) -> Block:
     uses = ("ki", "ms", "alpha", "eta", "attempt_time", "activation_exponent")
     if amp_col == "voltage":
         uses += ("ra", "tmr0", "v_half")
+    raw = ds.columns[amp_col]
+    unit = "uA" if amp_col == "current" else "V"
+    shown = raw * (1e6 if amp_col == "current" else 1.0)
+    group = np.array([f"{dr} {x:+.4g} {unit}" for dr, x in zip(direction, shown)])
+    keys = list(dict.fromkeys(group))
+    wd = np.logspace(math.log10(width.min()) - 0.3, math.log10(width.max()) + 0.3, 120)
+
+    def curves(values):
+        vals = _with(values, tnom=temp)
+        cur = current(values)
+        out = {}
+        for key in keys:
+            k = int(np.nonzero(group == key)[0][0])
+            out[key] = (wd, switching_probability_of(fn, vals, np.full(wd.size, cur[k]), wd))
+        return out
+
     return Block(f"{ds.name}: switching counts", "binomial", predict, ds.columns["switched"],
                  attempts=ds.columns["attempts"], uses=uses,
                  info={"dataset": ds, "what": "switching", "current": current, "width": width,
-                       "direction": direction, "temperature": temp, "amp_col": amp_col})
+                       "direction": direction, "temperature": temp, "amp_col": amp_col, "x": width,
+                       "xlabel": "pulse width [s]", "ylabel": "switching probability", "xscale": "log",
+                       "group": group, "curves": curves})
 
 
 # ---------------------------------------------------------------------------------------------
@@ -368,6 +403,19 @@ def wall_block(ds: Dataset, names: dict[str, str] | None = None) -> Block:
     def predict(values):
         return steady_state(values, j, hz, q=q, names=names)[0]
 
+    along_field = bool(np.ptp(hz) > 0 and np.ptp(j) == 0)
+    x = hz if along_field else j
+    xd = np.linspace(min(0.0, float(x.min())), float(x.max()), 161)
+
+    def curves(values):
+        if along_field:
+            return {"fit": (xd, steady_state(values, j[0], xd, q=q, names=names)[0])}
+        if np.ptp(hz) == 0:
+            return {"fit": (xd, steady_state(values, xd, hz[0], q=q, names=names)[0])}
+        return {}
+
     uses = tuple((names or {}).get(n, n) for n in ("d_dmi", "theta_sh", "alpha", "a_ex", "ki", "ms"))
     return Block(f"{ds.name}: wall velocity", "gaussian", predict, v, sigma=sigma, uses=uses,
-                 info={"dataset": ds, "what": "wall velocity", "x": j, "field": hz, "q": q})
+                 info={"dataset": ds, "what": "wall velocity", "x": x, "field": hz, "q": q, "curves": curves,
+                       "xlabel": "field [A/m]" if along_field else "current density [A/m^2]",
+                       "ylabel": "wall velocity [m/s]", "group": np.full(v.size, "data")})
