@@ -160,7 +160,7 @@ def cmd_demo(args) -> int:
     out = Path(args.output)
     out.mkdir(parents=True, exist_ok=True)
     ok = True
-    for src in sorted(EXAMPLES.glob("*_demo.toml")):
+    for src in sorted(EXAMPLES.glob("*_demo.toml")) + _fitted_demo(out):
         card_path = out / src.name
         shutil.copyfile(src, card_path)
         card = load_card(card_path)
@@ -173,6 +173,18 @@ def cmd_demo(args) -> int:
         ok &= result.passed
     say(f"demo finished in {out}: {'every bench passed' if ok else 'SOME BENCHES FAILED'}")
     return 0 if ok else VerificationFailed.exit_status
+
+
+def _fitted_demo(out: Path) -> list[Path]:
+    """The demo's fit step, when compactgen.calibrate is present: the card fitted to the bundled
+    synthetic data joins the build and verify."""
+    try:
+        from .calibrate.commands import demo_fit
+    except ModuleNotFoundError as exc:
+        if exc.name and "compactgen.calibrate.commands".startswith(exc.name):
+            return []
+        raise
+    return [demo_fit(out / "fit")]
 
 
 if __name__ == "__main__":

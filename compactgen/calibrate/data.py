@@ -226,10 +226,15 @@ def _pick_schema(path: Path, kind: str | None, names: list[str], meta_line: int 
             where = f"{path}, line {meta_line}, metadata 'measurement'" if meta_line else f"{path}"
             raise DataError(f"{where}: unknown measurement type {kind!r}; expected one of {', '.join(SCHEMAS)}")
         return SCHEMAS[key]
-    fits = [s for s in SCHEMAS.values() if all(any(c.name in names for c in g) for g in s.columns)]
+    score = {s.key: sum(any(c.name in names for c in g) for g in s.columns) for s in SCHEMAS.values()}
+    fits = [s for s in SCHEMAS.values() if score[s.key] == len(s.columns)]
     if len(fits) == 1:
         return fits[0]
     if not fits:
+        best = max(score.values())
+        near = [s for s in SCHEMAS.values() if score[s.key] == best]
+        if best >= 2 and len(near) == 1:
+            return near[0]  # the missing column is reported by the caller
         known = "; ".join(s.describe() for s in SCHEMAS.values())
         raise DataError(f"{path}: the columns ({', '.join(names)}) match no measurement type; expected {known}")
     raise DataError(f"{path}: the columns match several measurement types ({', '.join(s.key for s in fits)}); "

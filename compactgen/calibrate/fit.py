@@ -236,7 +236,7 @@ class _Objective:
                     r = (np.log(b.observed) - np.log(f)) / (b.sigma * s)
             else:
                 r = (b.observed - f) / (b.sigma * s)
-            res.append(np.where(np.isfinite(r), r, BIG))
+            res.append(np.clip(np.where(np.isfinite(r), r, BIG), -1e100, 1e100))  # no overflow in r @ r
         return res
 
     def __call__(self, u):

@@ -198,3 +198,24 @@ def _figures(fn, before: dict, after: dict, outcome: FitOutcome):
         val, se = outcome.propagate(lambda v, f=f: np.asarray(f(v), float))
         out[name] = (float(f(before)), float(val), float(se), unit, desc)
     return out
+
+
+def fit_wall_data(datasets: list[Dataset], values: dict[str, float], free: list[str],
+                  specs: dict[str, ParamSpec] | None = None, names: dict[str, str] | None = None,
+                  progress=None) -> FitOutcome:
+    """Fit domain-wall velocity files (any number, sharing parameters) on a parameter dictionary.
+
+    ``specs`` default to ``calibrate.wall.WALL_SPECS``; ``names`` maps the wall model's names
+    (ms, t_free, ki, kb, a_ex, d_dmi, alpha, theta_sh) to a device kind's own parameter names.
+    """
+    from .models import wall_block
+    from .wall import wall_specs
+
+    names = names or {}
+    if specs is None:
+        specs = {names.get(k, k): s for k, s in wall_specs().items()}
+    bad = [ds for ds in datasets if ds.kind != "wall-velocity"]
+    if bad:
+        raise DataError(f"{bad[0].path}: a {bad[0].kind} file in a wall-velocity fit")
+    blocks = [wall_block(ds, names) for ds in datasets]
+    return fit(specs, values, free, blocks, progress=progress)

@@ -56,13 +56,14 @@ def _label(source: str, seed: int) -> str:
 
 def make_stt_data(card, out_dir, seed: int = 1, nuisance: dict | None = None, source: str = "",
                   loops: int = 3, attempts: int = 400, field_step_mt: float = 3.0, r_noise: float = 0.003,
-                  prefix: str = "") -> list[Path]:
-    """R-V, two R-H loop files (slow and fast sweep) and a switching-count file from ``card``."""
+                  prefix: str = "", parts: tuple[str, ...] = ("rv", "rh", "switching"), fn=None) -> list[Path]:
+    """R-V, two R-H loop files (slow and fast sweep) and a switching-count file from ``card``
+    (``parts`` chooses a subset)."""
     rng = np.random.default_rng(seed)
     out = Path(out_dir)
     nuis = {**TRUTH_NUISANCE, **nuisance_from(card), **(nuisance or {})}
     values = dict(card.values, **nuis)
-    fn = stt_functions(card)
+    fn = fn or stt_functions(card)
     a = fn.args(values)
     source = source or f"card {card.name}"
     label = _label(source, seed)
@@ -78,7 +79,9 @@ def make_stt_data(card, out_dir, seed: int = 1, nuisance: dict | None = None, so
     for state, mz in (("P", 1.0), ("AP", -1.0)):
         r = 1.0 / fn.g(*a, v, mz) * (1 + r_noise * rng.standard_normal(v.size))
         rows += [[f"{x:.3f}", f"{y:.2f}", state] for x, y in zip(v, r)]
-    files.append(_write(out / f"{prefix}rv_bias.csv", common, ["voltage [V]", "resistance [ohm]", "state"], rows))
+    if "rv" in parts:
+        files.append(_write(out / f"{prefix}rv_bias.csv", common, ["voltage [V]", "resistance [ohm]", "state"],
+                            rows))
 
     # R-H loops at two sweep rates
     v_read = 0.05
@@ -88,7 +91,7 @@ def make_stt_data(card, out_dir, seed: int = 1, nuisance: dict | None = None, so
     surv = sp.lambdify((hsym, rsym), coercivity.ramp_survival_probability(hsym, hk, delta, tau0, rsym), "scipy")
     h_max = 450.0
     grid = np.round(np.arange(-h_max, h_max + 1e-9, field_step_mt), 6)
-    for name, rate_t in (("slow", 0.01), ("fast", 10.0)):
+    for name, rate_t in (("slow", 0.01), ("fast", 10.0)) if "rh" in parts else ():
         rate = rate_t / MU0  # A/m/s
         rows = []
         for loop in range(1, loops + 1):
@@ -129,8 +132,9 @@ def make_stt_data(card, out_dir, seed: int = 1, nuisance: dict | None = None, so
                 k = int(np.sum(t_sw < width))
             rows.append([f"{width * 1e9:.6g}", f"{sign * cur * 1e6:.1f}", direction, str(n), str(k)])
     meta = common + [("polarity", "bottom-to-top")]
-    files.append(_write(out / f"{prefix}switching.csv", meta,
-                        ["pulse_width [ns]", "current [uA]", "direction", "attempts", "switched"], rows))
+    if "switching" in parts:
+            files.append(_write(out / f"{prefix}switching.csv", meta,
+                            ["pulse_width [ns]", "current [uA]", "direction", "attempts", "switched"], rows))
     return files
 
 

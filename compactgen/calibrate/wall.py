@@ -133,7 +133,7 @@ def steady_state(values: dict[str, float], j, h_z=0.0, q: int = 1, h_x: float = 
         hi = phis[idx, k]
         args = (q, alpha, width, h_z[idx], h_sh[idx], h_k, h_d, h_x, h_y)
         d = direction[idx]
-        for _ in range(60):  # bisection on the bracket [lo, hi] where d*rate changes sign
+        for _ in range(38):  # bisection on [lo, hi] (width 2pi/720): 2e-14 rad at the end
             mid = 0.5 * (lo + hi)
             pos = f_rate(mid, *args) * d > 0
             lo = np.where(pos, mid, lo)
