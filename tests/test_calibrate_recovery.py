@@ -46,7 +46,7 @@ def test_recovers_the_truth_from_the_example_data(example_fit):
         assert math.isfinite(se) and se > 0
         assert abs(cf.values[n] - tv[n]) <= 2 * se, (n, cf.values[n], tv[n], se)
     # the demo card starts far away: most parameters start more than 2 s.e. from the truth
-    assert sum(abs(cf.start[n] - tv[n]) > 2 * cf.stderr[n] for n in cf.free) >= 7
+    assert sum(abs(cf.start[n] - tv[n]) > 2 * cf.stderr[n] for n in cf.free) >= 5
     # derived figures agree with the truth card's own figures within 2 s.e.
     from compactgen.reference import figures
 
