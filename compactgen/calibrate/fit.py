@@ -8,6 +8,9 @@ dictionary and says how its observations scatter:
   (``log=True``).  When ``estimate_scale`` is set (the usual case for measured curves whose
   noise is not stated) sigma is multiplied by a factor estimated from the block's own
   residuals, iterating fit and estimate until the factors settle.
+  With ``sigma_model`` the noise is predicted by the model (e.g. the thermal spread of a
+  switching field) and refreshed at the current parameters between passes (iteratively
+  reweighted least squares).
 - ``binomial``: switched counts k out of N attempts with predicted probability p; the
   residual is the signed deviance residual
   sign(k - Np) sqrt(2 [k ln(k/(Np)) + (N-k) ln((N-k)/(N(1-p)))]),
@@ -51,6 +54,8 @@ class Block:
     sigma: np.ndarray | float = 1.0  # gaussian: noise (absolute, or relative when log=True)
     log: bool = False
     estimate_scale: bool = True
+    #: gaussian: noise predicted by the model (iteratively reweighted: refreshed between passes)
+    sigma_model: Callable[[dict[str, float]], np.ndarray] | None = None
     uses: tuple[str, ...] = ()  # parameter names the block depends on (for reports)
     info: dict[str, Any] = field(default_factory=dict)  # plotting and reporting hints
 
@@ -272,15 +277,26 @@ def fit(specs: Mapping[str, ParamSpec], values: Mapping[str, float], free: Seque
     if n_tot <= p:
         raise InputError(f"{n_tot} data points cannot determine {p} free parameters")
     estimate = [b.kind == "gaussian" and b.estimate_scale for b in blocks]
+    reweight = [b.kind == "gaussian" and b.sigma_model is not None for b in blocks]
     success, message, passes = True, "no free parameters", 0
     for passes in range(1, max_passes + 1):
         obj.pass_no = passes
+        moved = 0.0
+        for b, rw in zip(blocks, reweight):
+            if rw:
+                new_sigma = np.broadcast_to(np.asarray(b.sigma_model(coords.to_values(u, base)), float), b.sigma.shape)
+                moved = max(moved, float(np.max(np.abs(new_sigma / b.sigma - 1.0))))
+                b.sigma = new_sigma.copy()
+        if passes > 1 and moved < 1e-4 and not any(estimate):
+            break
         if p:
             sol = optimize.least_squares(obj, u, bounds=(coords.lower, coords.upper), method="trf", x_scale="jac",
                                          max_nfev=max_nfev, xtol=1e-12, ftol=1e-12, gtol=1e-12)
             u, success, message = sol.x, bool(sol.success), str(sol.message)
         if not any(estimate):
-            break
+            if not any(reweight):
+                break
+            continue
         vals = coords.to_values(u, base)
         raw = _Objective(blocks, coords, base, None)
         res = raw.residuals_from(raw.predictions(vals))
@@ -290,7 +306,7 @@ def fit(specs: Mapping[str, ParamSpec], values: Mapping[str, float], free: Seque
                 new = math.sqrt(float(r @ r) / (len(b) * (n_tot - p) / n_tot)) or 1.0
                 changed = max(changed, abs(new / obj.scales[i] - 1.0))
                 obj.scales[i] = new
-        if changed < 1e-4 or not p:
+        if (changed < 1e-4 and (not any(reweight) or passes > 1 and moved < 1e-4)) or not p:
             break
     values_fit = coords.to_values(u, base)
     preds = obj.predictions(values_fit)

@@ -76,6 +76,8 @@ class SttFunctions:
     tau_p: object
     hc_ramp: object  # (params..., tau0, rate)
     hc_hold: object  # (params..., tau0, hold)
+    spread_ramp: object  # (params..., tau0, rate): standard deviation of the switching field
+    spread_hold: object  # (params..., tau0, hold)
     p_act: object  # (params..., tau0, n, t, i)
     integral: object  # (i, theta)
     p_prec: object  # (params..., theta)
@@ -117,6 +119,10 @@ def stt_functions(card) -> SttFunctions:
         tau_p=lam([], figs["tau_prec"]),
         hc_ramp=lam([tau0, rate], coercivity.ramp_switching_field(hk_eff, delta, tau0, rate)),
         hc_hold=lam([tau0, hold], coercivity.sharrock_switching_field(hk_eff, delta, tau0, hold)),
+        spread_ramp=lam([tau0, rate], coercivity.switching_field_spread(
+            hk_eff, delta, coercivity.ramp_switching_field(hk_eff, delta, tau0, rate))),
+        spread_hold=lam([tau0, hold], coercivity.switching_field_spread(
+            hk_eff, delta, coercivity.sharrock_switching_field(hk_eff, delta, tau0, hold))),
         p_act=lam([tau0, nexp, t, i], switching_probability.activated_switching_probability(
             t, thermal.activated_switching_time(tau0, delta, i, nexp))),
         integral=sp.lambdify([i, theta], switching.switching_integral(i, theta), modules="numpy"),
@@ -172,12 +178,6 @@ class LoopSummary:
     n_p: int
     n_ap: int
     notes: list[str] = field(default_factory=list)
-
-    def mean_se(self, values: list[float]) -> tuple[float, float]:
-        q = self.step / math.sqrt(12.0)  # quantisation of a single switching field
-        n = len(values)
-        sd = float(np.std(values, ddof=1)) if n > 1 else 0.0
-        return float(np.mean(values)), math.sqrt(max(sd * sd, q * q) / n)
 
 
 def reduce_loops(ds: Dataset) -> LoopSummary:
@@ -305,11 +305,15 @@ def _loop_blocks(fn: SttFunctions, ds: Dataset) -> list[Block]:
     if "sweep_rate" in ds.meta:
         rate = abs(float(ds.meta_si("sweep_rate")))
         hc = lambda a, vals: fn.hc_ramp(*a, vals["attempt_time"], rate)  # noqa: E731
+        spread = lambda a, vals: fn.spread_ramp(*a, vals["attempt_time"], rate)  # noqa: E731
         how = f"sweep rate {rate * MU0:.4g} T/s"
     else:
         hold = float(ds.meta_si("hold_time"))
         hc = lambda a, vals: fn.hc_hold(*a, vals["attempt_time"], hold)  # noqa: E731
+        spread = lambda a, vals: fn.spread_hold(*a, vals["attempt_time"], hold)  # noqa: E731
         how = f"hold time {hold:.4g} s"
+    up = np.r_[np.ones(len(s.h_up)), -np.ones(len(s.h_down))]  # +1: rising branch (AP -> P)
+    quant = s.step / math.sqrt(12.0)  # field-step quantisation of one observed switching field
 
     def plateaus(values):
         a = fn.args(values)
@@ -317,20 +321,25 @@ def _loop_blocks(fn: SttFunctions, ds: Dataset) -> list[Block]:
 
     def fields(values):
         a = fn.args(_with(values, tnom=temp))
-        c = hc(a, values)
-        return np.array([values["offset_field"] + c, values["offset_field"] - c])
+        return values["offset_field"] + up * hc(a, values)
 
-    up, up_se = s.mean_se(s.h_up)
-    dn, dn_se = s.mean_se(s.h_down)
+    def field_sigma(values):
+        """Thermal spread of one switching field (Gumbel width from the model) and the field step."""
+        a = fn.args(_with(values, tnom=temp))
+        sd = float(spread(a, values))
+        if not (sd > 0 and math.isfinite(sd)):
+            sd = float(np.std(np.r_[s.h_up, s.h_down]))
+        return np.full(up.size, math.hypot(sd, quant))
+
     info = {"dataset": ds, "summary": s, "how": how, "v_read": v_read, "temperature": temp}
     return [
         Block(f"{ds.name}: plateaus R_P, R_AP", "gaussian", plateaus, [s.r_p, s.r_ap],
               sigma=[s.r_p_se, s.r_ap_se], estimate_scale=False, uses=("ra", "tmr0", "v_half"),
               info={**info, "what": "plateaus", "labels": ["R_P", "R_AP"], "unit": "ohm"}),
-        Block(f"{ds.name}: switching fields", "gaussian", fields, [up, dn], sigma=[up_se, dn_se],
-              estimate_scale=False, uses=("ki", "ms", "attempt_time", "offset_field"),
-              info={**info, "what": "switching fields", "labels": ["AP->P (rising)", "P->AP (falling)"],
-                    "unit": "A/m"}),
+        Block(f"{ds.name}: switching fields", "gaussian", fields, np.r_[s.h_up, s.h_down],
+              sigma=np.full(up.size, max(quant, 1.0)), estimate_scale=False, sigma_model=field_sigma,
+              uses=("ki", "ms", "attempt_time", "offset_field"),
+              info={**info, "what": "switching fields", "rising": up > 0, "unit": "A/m"}),
     ]
 
 

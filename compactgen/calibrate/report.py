@@ -147,8 +147,9 @@ def loop_plot(plateau: Block, fields: Block, outcome: FitOutcome) -> str:
     for k, lp in enumerate(np.unique(loops)):
         m = loops == lp
         ax.plot(h[m], r[m], "-", lw=0.7, alpha=0.8, label=f"loop {int(lp)}")
-    for val, sd, lab in zip(fit_h, sd_h, ("fit AP->P", "fit P->AP")):
+    for val, sd, spread in ((fit_h[0], sd_h[0], fields.sigma[0]), (fit_h[-1], sd_h[-1], fields.sigma[-1])):
         x = val * MU0 * 1e3
+        ax.axvspan(x - spread * MU0 * 1e3, x + spread * MU0 * 1e3, color="tab:red", alpha=0.12)
         ax.axvspan(x - BAND * sd * MU0 * 1e3, x + BAND * sd * MU0 * 1e3, color="grey", alpha=0.4)
         ax.axvline(x, color="k", lw=1.0, ls="--")
     for val, lab in zip(fit_r, ("R_P fit", "R_AP fit")):
@@ -157,19 +158,24 @@ def loop_plot(plateau: Block, fields: Block, outcome: FitOutcome) -> str:
     ax.set_ylabel("resistance [ohm]")
     ax.grid(alpha=0.3)
     ax.legend(fontsize=7)
-    ax.set_title(f"{ds.name} ({plateau.info['how']}, read bias {plateau.info['v_read']:g} V)", fontsize=9)
+    ax.set_title(f"{ds.name} ({plateau.info['how']}, read bias {plateau.info['v_read']:g} V): fitted median "
+                 "switching fields (dashed, grey +-2 s.e.; red +-1 thermal spread)", fontsize=8)
     obs = np.concatenate([plateau.observed, fields.observed])
     pred = np.concatenate([fit_r, fit_h])
     sig = np.concatenate([plateau.sigma, fields.sigma])
     z = (obs - pred) / sig
-    labels = ["R_P", "R_AP", "H_sw up", "H_sw down"]
-    axr.bar(range(4), z, color=["tab:blue", "tab:blue", "tab:orange", "tab:orange"])
+    rising = fields.info["rising"]
+    labels = ["R_P", "R_AP"] + [f"up {k + 1}" for k in range(int(rising.sum()))] + \
+        [f"down {k + 1}" for k in range(int((~rising).sum()))]
+    colors = ["tab:blue", "tab:blue"] + ["tab:orange" if r else "tab:green" for r in rising]
+    axr.bar(range(len(z)), z, color=colors)
     axr.axhline(0, color="k", lw=0.8)
     for lim in (-2, 2):
         axr.axhline(lim, color="grey", lw=0.6, ls=":")
-    axr.set_xticks(range(4), labels, fontsize=8)
-    axr.set_ylabel("(measured - fit) / s.e.")
-    axr.set_title("reduced observations", fontsize=9)
+    axr.set_xticks(range(len(z)), labels, fontsize=7, rotation=60)
+    axr.set_ylabel("(measured - fit) / sigma")
+    axr.set_title("plateaus (sigma: s.e. of the mean) and switching fields\n(sigma: thermal spread and field step)",
+                  fontsize=8)
     fig.tight_layout()
     return png_base64(fig)
 
