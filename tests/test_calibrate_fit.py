@@ -143,3 +143,17 @@ def test_standard_errors_match_scatter_over_seeds_binomial(truth, tmp_path):
                         range(200, 216))
     assert np.all((ratio > 0.6) & (ratio < 1.6)), ratio
     assert np.mean(np.abs(z) <= 2) >= 0.85
+
+
+def test_warnings_for_bounds_and_unidentifiable_combinations():
+    x = np.linspace(0, 1, 20)
+    y = 3.0 * x + 0.01 * np.sin(40 * x)
+    specs = {"a": ParamSpec("a", "1", 1.0, 0.1, 2.0, "slope, capped below the truth"),
+             "b": ParamSpec("b", "1", 1.0, 0.1, 10.0, "second factor")}
+    out = fit(specs, {"a": 1.0, "b": 1.0}, ["a"], [Block("line", "gaussian", lambda v: v["a"] * x, y)])
+    assert out.values["a"] == pytest.approx(2.0, rel=1e-6)
+    assert any("a ended at its upper bound" in w for w in out.warnings)
+    # only the product a*b enters: the fit says the combination is not identifiable
+    out = fit(specs, {"a": 1.0, "b": 1.0}, ["a", "b"], [Block("product", "gaussian", lambda v: v["a"] * v["b"] * x, y)])
+    assert out.values["a"] * out.values["b"] == pytest.approx(3.0, rel=1e-3)
+    assert out.singular and any("not identifiable" in w for w in out.warnings)

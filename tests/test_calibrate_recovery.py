@@ -130,3 +130,65 @@ def test_wall_velocity_recovery(tmp_path):
     out2 = fit_wall_data(read_all(files), vals, ["dmi", "spin_hall_angle", "alpha"], specs=specs, names=names)
     assert out2.values["dmi"] == pytest.approx(out.values["d_dmi"], rel=1e-6)
     assert np.isfinite(out2.stderr["spin_hall_angle"])
+
+
+def _rewrite(src: Path, dst: Path, header: str, rows, meta_extra: str = "") -> Path:
+    meta = [ln for ln in src.read_text().splitlines() if ln.startswith("#")]
+    dst.write_text("\n".join(meta) + ("\n" + meta_extra if meta_extra else "") + "\n" + header + "\n"
+                   + "\n".join(rows) + "\n")
+    return dst
+
+
+def test_other_forms_of_the_same_measurements(tmp_path):
+    """I-V and TMR-V files made from the R-V data, an R-H file described by a hold time, and switching
+    pulses given as voltages: each form fits to the same parameters as the original."""
+    card = load_card(DEMO)
+    rv = read_dataset(EXAMPLES / "data" / "rv_bias.csv")
+    v, r, st = rv.columns["voltage"], rv.columns["resistance"], rv.columns["state"]
+    ref = fit_card(card, [rv])
+    iv = _rewrite(rv.path, tmp_path / "iv.csv", "voltage [V],current [uA],state",
+                  [f"{a:.3f},{1e6 * a / b:.6g},{s}" for a, b, s in zip(v, r, st)])
+    cf = fit_card(card, [read_dataset(iv)])
+    for n in ("ra", "tmr0", "v_half"):  # same data, another estimator: agree within its standard error
+        assert abs(cf.values[n] - ref.values[n]) < 2 * cf.stderr[n], n
+    p_mask, ap_mask = st == "P", st == "AP"
+    tmr = r[ap_mask] / r[p_mask] - 1  # rows are in the same voltage order for both states
+    tv = _rewrite(rv.path, tmp_path / "tmr.csv", "voltage [V],tmr [%]",
+                  [f"{a:.3f},{100 * t:.6g}" for a, t in zip(v[p_mask], tmr)])
+    cf = fit_card(card, [read_dataset(tv)])
+    assert cf.free == ["tmr0", "v_half"]
+    for n in cf.free:
+        assert abs(cf.values[n] - ref.values[n]) < 2 * cf.stderr[n], n
+    # R-H loops stepped with a hold time instead of a sweep rate: a different switching-field law, still fits
+    rh = EXAMPLES / "data" / "rh_loops_slow.csv"
+    text = rh.read_text().replace("# sweep_rate: 0.01 T/s", "# hold_time: 0.3 s")
+    (tmp_path / "rh_hold.csv").write_text(text)
+    cf = fit_card(card, [read_dataset(tmp_path / "rh_hold.csv")])
+    assert cf.outcome.success and {"ki", "offset_field"} <= set(cf.free)
+    assert "hold time" in cf.blocks[1].info["how"]
+
+
+def test_switching_pulses_given_as_voltages(tmp_path):
+    """Voltage amplitudes are turned into currents with the junction conductance of the starting state;
+    a file written in volts fits to the same switching parameters as the same pulses in amperes."""
+    from scipy.optimize import brentq
+
+    from compactgen.calibrate.models import stt_functions
+
+    truth = load_card(TRUTH)
+    fn = stt_functions(truth)
+    a = fn.args(truth.values)
+    sw = read_dataset(EXAMPLES / "data" / "switching.csv")
+    rows = []
+    for w, cur, d, n, k in zip(sw.columns["pulse_width"], sw.columns["current"], sw.columns["direction"],
+                               sw.columns["attempts"], sw.columns["switched"]):
+        mz0 = 1.0 if d == "P->AP" else -1.0
+        volt = brentq(lambda vv: vv * fn.g(*a, vv, mz0) - cur, -3 * np.sign(-cur) * 0 - 3.0, 3.0, xtol=1e-14)
+        rows.append(f"{w * 1e9:.6g},{volt:.9g},{d},{int(n)},{int(k)}")
+    volts = _rewrite(sw.path, tmp_path / "switching_volts.csv",
+                     "pulse_width [ns],voltage [V],direction,attempts,switched", rows)
+    free = ["eta", "alpha", "attempt_time", "activation_exponent"]
+    by_current = fit_card(truth, [sw], free=free)
+    by_voltage = fit_card(truth, [read_dataset(volts)], free=free)
+    for n in free:
+        assert by_voltage.values[n] == pytest.approx(by_current.values[n], rel=1e-5)

@@ -339,7 +339,7 @@ def fit(specs: Mapping[str, ParamSpec], values: Mapping[str, float], free: Seque
             k0 += n
         jac = np.where(np.isfinite(jac), jac, 0.0)
         uu, sv, vt = np.linalg.svd(jac, full_matrices=False)
-        tol = sv.max() * max(jac.shape) * np.finfo(float).eps * 1e3 if sv.size else 0
+        tol = sv.max() * 1e-8 if sv.size else 0  # condition number above 1e8: a direction the data do not fix
         inv = np.where(sv > tol, 1.0 / np.where(sv > tol, sv, 1.0) ** 2, 0.0)
         cov_u = (vt.T * inv) @ vt
         for k in np.nonzero(sv <= tol)[0]:

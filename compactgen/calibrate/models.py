@@ -293,7 +293,8 @@ def _bias_block(fn: SttFunctions, ds: Dataset) -> Block:
     def curves_i(values):
         a = fn.args(values)
         return {"P": (vd, vd * fn.g(*a, vd, 1.0)), "AP": (vd, vd * fn.g(*a, vd, -1.0))}
-    return Block(f"{ds.name}: I vs bias", "gaussian", predict_i, i, sigma=0.01 * float(np.max(np.abs(i))),
+    sigma_i = 0.01 * np.maximum(np.abs(i), 0.02 * float(np.max(np.abs(i))))  # relative, with a floor near 0 V
+    return Block(f"{ds.name}: I vs bias", "gaussian", predict_i, i, sigma=sigma_i,
                  uses=("ra", "tmr0", "v_half"), info={**info, "ylabel": "current [A]", "what": "current",
                                                       "group": group, "curves": curves_i})
 

@@ -171,7 +171,7 @@ def fit_card(card, datasets: list[Dataset], free: list[str] | None = None, fix: 
     # stage 1: resistances alone (cheap, and the switching model needs sensible R for voltage pulses)
     r_blocks = [b for b in blocks if set(b.uses) <= {"ra", "tmr0", "v_half"}]
     r_free = [n for n in chosen if n in ("ra", "tmr0", "v_half")]
-    if r_blocks and r_free and len(r_blocks) < len(blocks):
+    if r_blocks and r_free and len(r_blocks) < len(blocks) and sum(len(b) for b in r_blocks) > len(r_free):
         o = fit(specs, values, r_free, r_blocks, log_params=LOG_PARAMS, progress=progress)
         values = dict(o.values)
         stages.append({"name": "resistances", "free": r_free, "nfev": o.nfev, "seconds": o.seconds})
