@@ -20,7 +20,7 @@ from compactgen.calibrate.synthetic import TRUTH_WALL, make_wall_data
 from compactgen.calibrate.wall import wall_specs
 from compactgen.card import load_card
 from compactgen.cli import main
-from compactgen.errors import InputError
+from compactgen.errors import DataError, InputError
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 DEMO = EXAMPLES / "pmtj35_demo.toml"
@@ -192,3 +192,25 @@ def test_switching_pulses_given_as_voltages(tmp_path):
     by_voltage = fit_card(truth, [read_dataset(volts)], free=free)
     for n in free:
         assert by_voltage.values[n] == pytest.approx(by_current.values[n], rel=1e-5)
+
+
+def test_geometry_and_temperature_come_from_the_data(tmp_path):
+    """The data's diameter and temperature become the fitted card's (demag_nz recomputed); files that
+    disagree on them are refused: a card is one device at one temperature."""
+    card = load_card(DEMO)
+    rv = EXAMPLES / "data" / "rv_bias.csv"
+    other = tmp_path / "rv_40nm.csv"
+    other.write_text(rv.read_text().replace("# diameter: 35 nm", "# diameter: 40 nm")
+                     .replace("# temperature: 27 degC", "# temperature: 85 degC"))
+    cf = fit_card(card, [read_dataset(other)])
+    assert cf.values["diameter"] == pytest.approx(40e-9, rel=1e-12)
+    assert cf.values["tnom"] == pytest.approx(358.15, rel=1e-12)
+    assert cf.values["demag_nz"] != pytest.approx(card.values["demag_nz"], rel=1e-3)
+    assert any("diameter set from the data" in n for n in cf.fixed_notes)
+    assert cf.values["ra"] == pytest.approx(4.4e-12 * (40 / 35) ** 2, rel=2e-3)  # same resistances, larger area
+    with pytest.raises(DataError, match="rv_40nm.csv: diameter .* differs"):
+        fit_card(card, [read_dataset(rv), read_dataset(other)])
+    hot = tmp_path / "switching_hot.csv"
+    hot.write_text((EXAMPLES / "data" / "switching.csv").read_text().replace("27 degC", "85 degC"))
+    with pytest.raises(DataError, match="switching_hot.csv: temperature .* differs"):
+        fit_card(card, [read_dataset(EXAMPLES / "data" / "rh_loops_slow.csv"), read_dataset(hot)])

@@ -18,7 +18,7 @@ import numpy as np
 
 from ..errors import DataError, UnitError
 from ..units import linear_map, to_si
-from .schemas import SCHEMAS, ColumnSpec, MetaSpec, Schema
+from .schemas import SCHEMAS, ColumnSpec, Schema
 
 _HEADER_CELL = re.compile(r"^\s*(?P<name>[^\[\]]*?)\s*(?:\[(?P<unit>[^\[\]]*)\])?\s*$")
 _META = re.compile(r"^#\s*(?P<key>[A-Za-z][A-Za-z0-9 _\-]*?)\s*:\s*(?P<value>.*?)\s*$")
@@ -122,10 +122,6 @@ def _choice(text: str, choices: tuple[str, ...]) -> str | None:
             if u == c.upper():
                 return c
     return None
-
-
-def sha256_file(path: Path) -> str:
-    return hashlib.sha256(path.read_bytes()).hexdigest()
 
 
 def read_dataset(path: str | Path, kind: str | None = None) -> Dataset:
@@ -335,4 +331,4 @@ def read_all(paths) -> list[Dataset]:
     return [read_dataset(p) for p in paths]
 
 
-__all__ = ["Dataset", "read_dataset", "read_all", "sha256_file", "MetaSpec"]
+__all__ = ["Dataset", "read_dataset", "read_all"]

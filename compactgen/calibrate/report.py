@@ -7,7 +7,6 @@ import html
 import math
 
 import numpy as np
-from scipy import stats
 
 from .. import __version__
 from ..constants import MU0
@@ -298,4 +297,4 @@ def fit_html(cf, truth: dict[str, float] | None = None, title: str = "") -> str:
             f"<body>{''.join(parts)}</body></html>")
 
 
-__all__ = ["fit_html", "curve_plot", "loop_plot", "wilson", "stats"]
+__all__ = ["fit_html", "curve_plot", "loop_plot", "wilson"]

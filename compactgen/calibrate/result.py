@@ -11,7 +11,7 @@ from pathlib import Path
 from .. import __version__
 from ..card import card_text, parse_card
 from ..errors import InputError
-from .models import NUISANCE_SPECS
+from .models import NUISANCE_SPECS, STT_FITTABLE
 from .runner import CardFit
 
 METHOD = ("joint maximum likelihood (scipy.optimize.least_squares, trust-region reflective): Gaussian "
@@ -33,8 +33,7 @@ def provenance(cf: CardFit, date: str | None = None) -> dict:
         "fitted_from_sha256": card.sha256(),
         "method": METHOD,
         "free": list(cf.free),
-        "kept": [n for n in cf.specs if n not in cf.free and (n in card.values or n in NUISANCE_SPECS)
-                 and n in ("ra", "tmr0", "v_half", "ki", "ms", "alpha", "eta", *NUISANCE_SPECS)],
+        "kept": [n for n in (*STT_FITTABLE, *NUISANCE_SPECS) if n not in cf.free],
         "model_evaluations": int(cf.nfev),
         "converged": bool(o.success),
         "notes": list(cf.fixed_notes),

@@ -64,13 +64,7 @@ class CardFit:
 
 
 def _agree(datasets: list[Dataset], what: str, get, rel: float, unit: str) -> float | None:
-    vals = []
-    for ds in datasets:
-        try:
-            vals.append((ds, get(ds)))
-        except DataError:
-            if what == "diameter":
-                raise
+    vals = [(ds, get(ds)) for ds in datasets]
     if not vals:
         return None
     ref_ds, ref = vals[0]
@@ -89,8 +83,7 @@ def prepare_values(card, datasets: list[Dataset]) -> tuple[dict[str, float], lis
     if diam is not None and abs(diam - values["diameter"]) > 1e-6 * values["diameter"]:
         notes.append(f"diameter set from the data: {diam * 1e9:.4g} nm (card: {values['diameter'] * 1e9:.4g} nm)")
         values["diameter"] = diam
-        values = card.device.derive_defaults(values, card.options, card.given - {"demag_nz"}
-                                             if "demag_nz" not in card.given else card.given)
+        values = card.device.derive_defaults(values, card.options, card.given)  # demag_nz from the new diameter
     temp_sets = [ds for ds in datasets if ds.kind in ("resistance-field", "switching") or "temperature" in ds.meta]
     temp = _agree(temp_sets, "temperature", lambda ds: float(ds.meta_si("temperature")), 0.003, "K")
     if temp is not None:
@@ -102,18 +95,16 @@ def prepare_values(card, datasets: list[Dataset]) -> tuple[dict[str, float], lis
     return values, notes
 
 
-def default_free(card, datasets: list[Dataset], blocks: list[Block], values: dict[str, float]) -> tuple[list[str], list[str]]:
+def default_free(fn, datasets: list[Dataset], blocks: list[Block], values: dict[str, float]) -> tuple[list[str], list[str]]:
     """Free parameters implied by the data, and a note for every parameter kept fixed and why."""
     kinds = {ds.kind for ds in datasets}
     used = set().union(*(b.uses for b in blocks))
     notes = []
     thermal = precessional = False
+    ic0 = fn.i_c0(*fn.args(values))
     for b in blocks:
         if b.info.get("what") == "switching":
-            from .models import stt_functions  # noqa: F401
-
             cur = np.abs(b.info["current"](values))
-            ic0 = b.info["i_c0"](values)
             thermal |= bool(np.any(cur < 0.95 * ic0))
             precessional |= bool(np.any(cur > 1.05 * ic0))
     free = [n for n in (*STT_FITTABLE, *NUISANCE_SPECS) if n in used]
@@ -150,12 +141,9 @@ def fit_card(card, datasets: list[Dataset], free: list[str] | None = None, fix: 
     work = card.with_values({k: start[k] for k in card.values})
     fn = stt_functions(work)
     blocks = stt_blocks(fn, datasets)
-    for b in blocks:
-        if b.info.get("what") == "switching":
-            b.info["i_c0"] = lambda vals: fn.i_c0(*fn.args(vals))
     specs = {s.name: s for s in card.device.table()}
     specs.update(NUISANCE_SPECS)
-    auto_free, keep_notes = default_free(card, datasets, blocks, start)
+    auto_free, keep_notes = default_free(fn, datasets, blocks, start)
     chosen = list(auto_free) if free is None else list(free)
     for n in list(chosen) + list(fix):
         if n not in specs:
