@@ -270,7 +270,7 @@ def fit_html(cf, truth: dict[str, float] | None = None, title: str = "") -> str:
         srows.append(f"<tr><td>{html.escape(st.name)}</td><td>{st.n}</td><td>{stat} {st.statistic:.4g}</td>"
                      f"<td>{st.dof:.1f}</td><td>{st.p_value:.3g}</td><td>{st.rms:.4g}</td><td>{note}</td></tr>")
     parts.append("<h2>Goodness of fit per dataset</h2><table><tr><th>block</th><th>points</th><th>statistic</th>"
-                 "<th>dof</th><th>p</th><th>rms residual</th><th>note</th></tr>" + "".join(srows) + "</table>")
+                 "<th>dof</th><th>p</th><th>rms residual (SI; relative for R curves)</th><th>note</th></tr>" + "".join(srows) + "</table>")
     png = corr_plot(o.free, o.corr)
     if png:
         parts.append(f"<h2>Correlations</h2><img src='data:image/png;base64,{png}'/>")
@@ -288,6 +288,10 @@ def fit_html(cf, truth: dict[str, float] | None = None, title: str = "") -> str:
                            and x.info.get("what") == "switching fields")
             png = loop_plot(b, partner, o)
             done |= {b.name, partner.name}
+            if png:
+                parts.append(f"<h3>{html.escape(b.info['dataset'].name)}: R-H loops</h3>"
+                             f"<img src='data:image/png;base64,{png}'/>")
+            continue
         else:
             png = curve_plot(b, o, scales.get(b.name, 1.0))
             done.add(b.name)
