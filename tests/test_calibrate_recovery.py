@@ -214,3 +214,18 @@ def test_geometry_and_temperature_come_from_the_data(tmp_path):
     hot.write_text((EXAMPLES / "data" / "switching.csv").read_text().replace("27 degC", "85 degC"))
     with pytest.raises(DataError, match="switching_hot.csv: temperature .* differs"):
         fit_card(card, [read_dataset(EXAMPLES / "data" / "rh_loops_slow.csv"), read_dataset(hot)])
+
+
+def test_points_near_the_critical_current_are_flagged(tmp_path):
+    truth = load_card(TRUTH)
+    from compactgen.calibrate.models import stt_functions
+
+    fn = stt_functions(truth)
+    ic0 = fn.i_c0(*fn.args(truth.values))
+    rows = [f"{w},{-1e6 * ic0 * i:.4f},AP->P,200,{k}" for w, i, k in
+            ((100, 0.6, 20), (1000, 0.6, 150), (10, 0.75, 100), (5, 1.0, 120), (3, 2.0, 100), (2, 2.0, 30))]
+    p = tmp_path / "near.csv"
+    p.write_text("# diameter: 35 nm\n# temperature: 27 degC\n# polarity: bottom-to-top\n"
+                 "pulse_width [ns],current [uA],direction,attempts,switched\n" + "\n".join(rows) + "\n")
+    cf = fit_card(truth, [read_dataset(p)], free=["activation_exponent"])  # I_c0 stays the truth's
+    assert any("within 10 % of the fitted I_c0" in w for w in cf.outcome.warnings)

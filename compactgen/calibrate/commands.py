@@ -91,6 +91,8 @@ def run_fit(card_path, data_paths, output, report=None, name=None, free=None, fi
     say(f"wrote {path}: {len(cf.free)} free parameters, {cf.nfev} model evaluations, "
         f"{sum(s['seconds'] for s in cf.stages):.2f} s")
     print(summary_table(cf))
+    for n in cf.fixed_notes:
+        say(f"note: {n}")
     for w in cf.outcome.warnings:
         say(f"warning: {w}")
     if report:

@@ -40,6 +40,8 @@ def provenance(cf: CardFit, date: str | None = None) -> dict:
         "warnings": list(o.warnings),
         "data": [{"file": str(ds.path), "sha256": ds.sha256, "measurement": ds.kind, "rows": len(ds)}
                  for ds in cf.datasets],
+        "correlation": {"parameters": list(o.free),
+                        "matrix": [[float(f"{c:.4f}") if math.isfinite(c) else 0.0 for c in row] for row in o.corr]},
         "nuisance": {k: _fmt(NUISANCE_SPECS[k], v) for k, v in cf.nuisance.items()},
         "nuisance_uncertainty": {k: _fmt(NUISANCE_SPECS[k], o.stderr[k]) for k in NUISANCE_SPECS
                                  if k in o.stderr and math.isfinite(o.stderr[k])},

@@ -167,7 +167,38 @@ def fit_card(card, datasets: list[Dataset], free: list[str] | None = None, fix: 
     stages.append({"name": "joint", "free": chosen, "nfev": outcome.nfev, "seconds": outcome.seconds})
     final = dict(outcome.values)
     figs = _figures(fn, start, final, outcome)
+    outcome.warnings.extend(_validity_warnings(fn, blocks, final))
+    notes.extend(_range_notes(datasets, blocks, final))
     return CardFit(card, datasets, outcome, specs, start, final, chosen, notes, figs, blocks, stages)
+
+
+def _validity_warnings(fn, blocks: list[Block], values: dict[str, float]) -> list[str]:
+    """Switching points within 10 % of I_c0, where neither regime formula holds (models docstring)."""
+    out = []
+    ic0 = fn.i_c0(*fn.args(values))
+    for b in blocks:
+        if b.info.get("what") == "switching":
+            i = np.abs(b.info["current"](values)) / ic0
+            near = int(np.sum((i > 0.9) & (i < 1.1)))
+            if near:
+                out.append(f"{b.name}: {near} point(s) lie within 10 % of the fitted I_c0 = {ic0:.4g} A, where "
+                           "neither the thermally activated nor the precessional formula holds; their fit is rough")
+    return out
+
+
+def _range_notes(datasets: list[Dataset], blocks: list[Block], values: dict[str, float]) -> list[str]:
+    """Compare the card's calibrated range (v_max, j_max, kept as given) with what the data cover."""
+    notes = []
+    v = [float(np.max(np.abs(ds.columns["voltage"]))) for ds in datasets if "voltage" in ds.columns]
+    if v and values["v_max"] > max(v) * 1.0001:
+        notes.append(f"the card's v_max = {values['v_max']:.3g} V exceeds the largest bias in the data "
+                     f"({max(v):.3g} V); kept as given - narrow it if the model should warn sooner")
+    area = math.pi * values["diameter"] ** 2 / 4
+    j = [float(np.max(np.abs(b.info["current"](values)))) / area for b in blocks if b.info.get("what") == "switching"]
+    if j and values["j_max"] > max(j) * 1.0001:
+        notes.append(f"the card's j_max = {values['j_max']:.3g} A/m^2 exceeds the largest pulse current density in "
+                     f"the data ({max(j):.3g} A/m^2); kept as given")
+    return notes
 
 
 def _figures(fn, before: dict, after: dict, outcome: FitOutcome):
