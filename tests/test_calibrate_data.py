@@ -55,6 +55,9 @@ def test_unit_conversions_exact_factors(tmp_path):
     assert ds.columns["voltage"][0] == pytest.approx(0.1, rel=1e-15)
     assert ds.columns["tmr"][0] == pytest.approx(1.2, rel=1e-15)
     assert ds.area() == pytest.approx(1e-15, rel=1e-15)
+    p = write(tmp_path, "tabs.csv", "# Diameter: 35 nm\nVoltage [V]\tResistance [kOhm]\tState\n-0.1\t4.5\tap\n")
+    ds = read_dataset(p)  # tab separated, names and choices case-insensitive
+    assert ds.columns["resistance"][0] == pytest.approx(4500.0, rel=1e-15) and ds.columns["state"][0] == "AP"
     p = write(tmp_path, "rh2.csv", "# diameter: 40 nm\n# temperature: 300 K\n# read_bias: 50 mV\n"
               "# sweep_rate: 10 mT/s\nfield [mT],resistance [ohm]\n-2,2\n")
     assert read_dataset(p).meta_si("sweep_rate") == pytest.approx(1e-2 / C.mu_0, rel=1e-14)

@@ -79,7 +79,9 @@ def test_binomial_fit_matches_direct_likelihood_maximisation():
     k = rng.binomial(n.astype(int), prob(*truth, x)).astype(float)
     specs = {"a": ParamSpec("a", "1", 0.0, -10, 10, "centre"), "b": ParamSpec("b", "1", 1.0, 0.01, 10, "width")}
     block = Block("logistic", "binomial", lambda v: prob(v["a"], v["b"], x), k, attempts=n)
-    out = fit(specs, {"a": 0.0, "b": 1.5}, ["a", "b"], [block])
+    events = []
+    out = fit(specs, {"a": 0.0, "b": 1.5}, ["a", "b"], [block], progress=events.append)
+    assert events and events[-1]["nfev"] == len(events) and events[-1]["best"] <= events[0]["cost"]
 
     def nll(p):
         pp = np.clip(prob(p[0], p[1], x), 1e-300, 1 - 1e-16)
