@@ -96,6 +96,9 @@ class ModelIR:
     constraints: list[tuple[sp.Expr, str]] = field(default_factory=list)
     #: limit parameter name -> local symbol whose magnitude it bounds (calibrated range)
     limits: dict[str, sp.Symbol] = field(default_factory=dict)
+    #: locals several equations share -> parameter-only scale; ngspice computes each once on an
+    #: auxiliary node carrying local/scale (see render.ngspice)
+    shared: dict[sp.Symbol, sp.Expr] = field(default_factory=dict)
     #: filled by hoisted(): the residual of each state with coefficients hoisted
     residuals: dict[str, sp.Expr] = field(default_factory=dict)
 
@@ -123,50 +126,24 @@ class ModelIR:
             return self.residuals[state.name]
         return sp.Piecewise((-self.time_scale * state.rhs, SIM_TIME > 0), (state.symbol - state.initial, True))
 
+    def parameter_level(self) -> set[sp.Symbol]:
+        """Symbols fixed for an instance: parameters, constants, temperature-free derived."""
+        tdep = self.temperature_dependent()
+        return (set(self.param_symbols().values()) | set(self.constants)
+                | {s for s, _ in self.derived if s not in tdep})
+
     def hoisted(self, prefix: str = "kq") -> "ModelIR":
         """An equivalent IR in which every parameter-only sub-expression of a bias-dependent
-        expression is a derived quantity of its own.
-
-        Both simulators then evaluate those coefficients once per instance instead of at every
-        Newton iteration, and ngspice, whose B-source arithmetic loses accuracy on products of
-        very small constants such as hbar*e*mu0, only sees numbers of ordinary magnitude.
-        """
+        expression is a derived quantity of its own (see Hoister)."""
         import dataclasses
 
-        tdep = self.temperature_dependent()
-        base = set(self.param_symbols().values()) | set(self.constants) | {s for s, _ in self.derived if s not in tdep}
-        new_defs: list[tuple[sp.Symbol, sp.Expr]] = []
-        cache: dict[sp.Expr, sp.Symbol] = {}
-
-        def name_for(e):
-            if e not in cache:
-                sym = sp.Symbol(f"{prefix}{len(cache) + 1}", real=True)
-                cache[e] = sym
-                new_defs.append((sym, e))
-            return cache[e]
-
-        def is_par(e):
-            return not e.is_Atom and e.free_symbols <= base
-
-        def h(e):
-            if e.is_Atom or isinstance(e, (sp.core.relational.Relational,)):
-                return e
-            if is_par(e):
-                return name_for(e)
-            if isinstance(e, (sp.Add, sp.Mul)):
-                pars = [a for a in e.args if a.free_symbols <= base]
-                rest = [h(a) for a in e.args if not a.free_symbols <= base]
-                if len(pars) >= 2 or (len(pars) == 1 and not pars[0].is_Atom):
-                    return e.func(name_for(e.func(*pars)), *rest)
-                return e.func(*pars, *rest)
-            return e.func(*[h(a) for a in e.args])
-
+        h = Hoister(self.parameter_level(), prefix)
         loc = [(s, h(e)) for s, e in self.locals]
         states = [dataclasses.replace(st, rhs=h(st.rhs)) for st in self.states]
         branches = [dataclasses.replace(b, current=h(b.current)) for b in self.branches]
         outputs = [dataclasses.replace(o, expr=h(o.expr)) for o in self.outputs]
         residuals = {st.name: h(self.residual(st)) for st in self.states}
-        return dataclasses.replace(self, derived=list(self.derived) + new_defs, locals=loc, states=states,
+        return dataclasses.replace(self, derived=list(self.derived) + h.definitions, locals=loc, states=states,
                                    branches=branches, outputs=outputs, residuals=residuals)
 
     def validate(self) -> None:
@@ -224,3 +201,55 @@ def _need(expr, known, what):
 
 def param(spec: ParamSpec) -> sp.Symbol:
     return spec.symbol
+
+
+class Hoister:
+    """Replace parameter-only sub-expressions by new derived symbols.
+
+    Both simulators then evaluate those coefficients once per instance instead of at every
+    Newton iteration, and ngspice, whose B-source arithmetic loses accuracy on products of very
+    small constants such as hbar*e*mu0, only sees numbers of ordinary magnitude.
+    """
+
+    def __init__(self, base: set[sp.Symbol], prefix: str = "kq"):
+        self.base = set(base)
+        self.prefix = prefix
+        self.cache: dict[sp.Expr, sp.Symbol] = {}
+        self.definitions: list[tuple[sp.Symbol, sp.Expr]] = []
+
+    def _name(self, e: sp.Expr) -> sp.Symbol:
+        if e not in self.cache:
+            sym = sp.Symbol(f"{self.prefix}{len(self.cache) + 1}", real=True)
+            self.cache[e] = sym
+            self.definitions.append((sym, e))
+            self.base.add(sym)
+        return self.cache[e]
+
+    def _fixed(self, e) -> bool:
+        return e.free_symbols <= self.base
+
+    def __call__(self, e: sp.Expr) -> sp.Expr:
+        e = sp.sympify(e)
+        if e.is_Atom or isinstance(e, sp.core.relational.Relational):
+            return e
+        if self._fixed(e):
+            return self._name(e)
+        if isinstance(e, (sp.Add, sp.Mul)):
+            fixed = [a for a in e.args if self._fixed(a)]
+            rest = [self(a) for a in e.args if not self._fixed(a)]
+            if len(fixed) >= 2 or (len(fixed) == 1 and not fixed[0].is_Atom):
+                return e.func(self._name(e.func(*fixed)), *rest)
+            return e.func(*fixed, *rest)
+        return e.func(*[self(a) for a in e.args])
+
+
+def collect_terms(expr: sp.Expr, fixed: set[sp.Symbol]) -> sp.Expr:
+    """Expand ``expr`` and merge terms with the same variable part, so each monomial of the
+    states and probes appears once with one parameter-only coefficient."""
+    groups: dict[sp.Expr, list[sp.Expr]] = {}
+    for term in sp.Add.make_args(sp.expand(expr)):
+        coef, var = [], []
+        for f in sp.Mul.make_args(term):
+            (coef if f.free_symbols <= fixed else var).append(f)
+        groups.setdefault(sp.Mul(*var), []).append(sp.Mul(*coef))
+    return sp.Add(*[sp.Add(*c) * v for v, c in groups.items()])

@@ -142,8 +142,8 @@ class ReferenceModel:
             limit = self.num[self.ir.params[name].symbol]
             if value > limit:
                 spec = self.ir.params[name]
-                msg = (f"{where}{self.ir.name}: driven to |{spec.desc.split(' the model')[0].replace('largest |', '')}| "
-                       f"= {value:.4g} {spec.unit}, beyond the calibrated limit {name} = {limit:.4g} {spec.unit}")
+                msg = (f"{where}{self.ir.name}: |{self.ir.limits[name]}| reached {value:.4g} {spec.unit}, beyond "
+                       f"the calibrated limit {name} = {limit:.4g} {spec.unit} ({spec.desc})")
                 warnings.warn(msg, OutOfCalibratedRange, stacklevel=3)
                 notes.append(msg)
         return notes
@@ -172,8 +172,10 @@ class ReferenceModel:
             return self.rhs(node_v(t), y)
 
         ts, ys = [], []
+        last_t = None
         y = self.initial.copy()
-        step = max_step if max_step is not None else np.inf
+        # a cap of a few precession periods keeps the adaptive first steps from leaving the sphere
+        step = max_step if max_step is not None else 5.0 * self.tsc
         for a, b in zip(bps[:-1], bps[1:]):
             if b - a <= 0:
                 continue
@@ -184,8 +186,10 @@ class ReferenceModel:
                 seg_t = sol.t
             else:
                 seg_t = t_eval[(t_eval >= a) & (t_eval <= b)]
-            if ts and len(seg_t) and seg_t[0] == ts[-1][-1]:
-                seg_t = seg_t[1:]
+            if last_t is not None and len(seg_t) and seg_t[0] <= last_t:
+                seg_t = seg_t[seg_t > last_t]
+            if len(seg_t):
+                last_t = seg_t[-1]
             ts.append(np.asarray(seg_t))
             ys.append(sol.sol(seg_t) if len(seg_t) else np.zeros((len(y), 0)))
             y = sol.y[:, -1]

@@ -12,7 +12,7 @@ import jinja2
 import sympy as sp
 
 from . import __version__
-from .ir import SIM_TIME, ModelIR
+from .ir import SIM_TIME, Hoister, ModelIR, collect_terms
 from .printing import NgspicePrinter, VerilogAPrinter
 from .printing.base import format_number
 
@@ -103,8 +103,8 @@ def verilog_a(ir: ModelIR) -> str:
 
 def ngspice(ir: ModelIR) -> str:
     """ngspice subcircuit: parameter-only quantities as .param, everything that depends on
-    bias, state or temperature inlined into the B-source expressions."""
-    ir = ir.hoisted()
+    bias, state or temperature inlined into the B-source expressions, expanded and with their
+    parameter-only coefficients hoisted; shared quantities on auxiliary nodes."""
     smap = {str(k): f"V({p},{n})" if n != "0" else f"V({p})" for k, (p, n) in ir.voltages.items()}
     smap.update({s.name: f"V({s.name})" for s in ir.states})
     smap[str(ir.temperature)] = "(temper + 273.15)"
@@ -113,26 +113,48 @@ def ngspice(ir: ModelIR) -> str:
     # analysis and equals the time during the first second of a transient.
     smap[str(SIM_TIME)] = "V(clk)"
     pr = NgspicePrinter(smap)
+    hoist = Hoister(ir.parameter_level())
     tdep = ir.temperature_dependent()
     inline: dict[sp.Symbol, sp.Expr] = {}
     for sym, e in ir.derived:
         if sym in tdep:
             inline[sym] = e.xreplace(inline)
+    aux, extra_derived = [], []
     for sym, e in ir.locals:
-        inline[sym] = e.xreplace(inline)
+        if sym in ir.shared:
+            # computed once per instance on node <name>: R to ground of 1 ohm, fed by a current
+            # local/scale, so the node voltage is O(1); users read it as scale*V(<name>)
+            scale = sp.Symbol(f"ks_{sym}", positive=True)
+            inv = sp.Symbol(f"kis_{sym}", positive=True)
+            extra_derived += [(scale, ir.shared[sym]), (inv, 1 / scale)]
+            hoist.base |= {scale, inv}
+            flat = collect_terms((inv * e).xreplace(inline), hoist.base)
+            aux.append(dict(name=str(sym), code=spice_wrap(pr.code(hoist(flat)))))
+            node = sp.Symbol(f"aux_{sym}", real=True)
+            pr.symbol_map[node.name] = f"V({sym})"
+            inline[sym] = scale * node
+        else:
+            inline[sym] = e.xreplace(inline)
 
     def code(e):
-        return pr.code(sp.sympify(e).xreplace(inline))
+        return pr.code(hoist(collect_terms(sp.sympify(e).xreplace(inline), hoist.base)))
+
+    def residual(st):
+        hold = sp.Piecewise((sp.Symbol("_flow"), SIM_TIME > 0), (sp.Symbol("_hold"), True))
+        return pr.code(hold).replace("_flow", code(-ir.time_scale * st.rhs)).replace(
+            "_hold", code(st.symbol - st.initial))
 
     ctx = _common(ir)
     ctx.update(
         params=[dict(name=s.name, default=format_number(s.default)) for s in ir.params],
         constants=[dict(name=str(k), code=format_number(v)) for k, v in ir.constants.items()],
-        derived=[dict(name=str(k), code=pr.code(e)) for k, e in ir.derived if k not in tdep],
-        states=[dict(name=s.name, desc=s.desc, residual=spice_wrap(code(ir.residual(s))), initial=code(s.initial))
+        aux=aux,
+        states=[dict(name=s.name, desc=s.desc, residual=spice_wrap(residual(s)), initial=code(s.initial))
                 for s in ir.states],
         time_scale=str(ir.time_scale),
         branches=[dict(pos=b.pos, neg=b.neg, desc=b.desc, code=spice_wrap(code(b.current))) for b in ir.branches],
         stress=spice_wrap(code(_stress_expr(ir))),
     )
+    ctx["derived"] = [dict(name=str(k), code=pr.code(e))
+                      for k, e in list(ir.derived) + extra_derived + hoist.definitions if k not in tdep]
     return environment().get_template("ngspice/model.lib.j2").render(**ctx)

@@ -40,4 +40,11 @@ if ! python3 -m pip --version >/dev/null 2>&1; then
 fi
 echo "setup.sh: python3 -m pip install -e .[test] (in $(pwd), with $(command -v python3))"
 python3 -m pip install -e ".[test]"
+# pyenv keeps console scripts behind shims that only appear after a rehash
+if command -v pyenv >/dev/null 2>&1; then
+    pyenv rehash || true
+fi
+if ! command -v compactgen >/dev/null 2>&1; then
+    echo "setup.sh: note: the compactgen command is not on PATH; use 'python3 -m compactgen' instead" >&2
+fi
 echo "setup.sh: done"

@@ -99,15 +99,21 @@ class Parts:
         self.derived: list[tuple[sp.Symbol, sp.Expr]] = []
         self.locals: list[tuple[sp.Symbol, sp.Expr]] = []
         self.constraints: list[tuple[sp.Expr, str]] = []
+        self.shared: dict[sp.Symbol, sp.Expr] = {}
 
     def d(self, name: str, expr, positive: bool = False) -> sp.Symbol:
         s = sp.Symbol(name, real=True, positive=True) if positive else sp.Symbol(name, real=True)
         self.derived.append((s, sp.sympify(expr)))
         return s
 
-    def loc(self, name: str, expr) -> sp.Symbol:
+    def loc(self, name: str, expr, node_scale=None) -> sp.Symbol:
+        """A bias/state-dependent quantity.  ``node_scale`` (parameter-only) marks one that several
+        equations share: ngspice then computes it once on an auxiliary node (value/scale, O(1))
+        instead of repeating its expression inside every B-source."""
         s = sp.Symbol(name, real=True)
         self.locals.append((s, sp.sympify(expr)))
+        if node_scale is not None:
+            self.shared[s] = sp.sympify(node_scale)
         return s
 
 
@@ -153,7 +159,8 @@ def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p):
 
 def mtj_conductance(parts: Parts, area, v, cos_theta):
     P = parts.P
-    return parts.loc("g_mtj", tunnelling.mtj_conductance(P["ra"], area, P["tmr0"], P["v_half"], v, cos_theta))
+    return parts.loc("g_mtj", tunnelling.mtj_conductance(P["ra"], area, P["tmr0"], P["v_half"], v, cos_theta),
+                     node_scale=area / P["ra"])
 
 
 __all__ = ["Parts", "free_layer", "macrospin_states", "mtj_conductance", "const_values"]

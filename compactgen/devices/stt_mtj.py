@@ -59,7 +59,8 @@ class SttMtj(DeviceKind):
         g = mtj_conductance(parts, area, v, mz_sym)  # p = +z, so cos(theta) = m_z
         i_tb = parts.loc("i_tb", v * g)
         j = parts.loc("j_tb", i_tb / area)
-        h_dl = parts.loc("h_dl", torques.spin_torque_field(j, P["eta"], P["ms"], P["t_free"]))
+        h_dl = parts.loc("h_dl", torques.spin_torque_field(j, P["eta"], P["ms"], P["t_free"]),
+                         node_scale=fl["hk_eff"])
         h_fl = parts.loc("h_fl", P["xi_fl"] * h_dl)
         _, states = macrospin_states(parts, fl, h_dl, h_fl, (0, 0, 1))
         # key figures (parameter-only)
@@ -108,6 +109,7 @@ class SttMtj(DeviceKind):
                 "Internal nodes mx, my, mz carry the free-layer unit vector as voltages (1 V = 1).",
             ],
             constraints=parts.constraints,
+            shared=parts.shared,
             limits={"v_max": v, "j_max": j},
         )
         ir.validate()

@@ -38,15 +38,17 @@ def julliere_tmr(p1, p2):
 def mtj_conductance(ra, area, tmr0, v_half, v, cos_theta):
     """Conductance of a pillar: R_P = RA/area bias-independent, R_AP(V) = R_P (1 + TMR(V)),
     interpolated in cos(theta) (common compact-model practice, no source)."""
-    r_p = resistance_from_ra(ra, area)
-    g_p = 1 / r_p
-    g_ap = 1 / (r_p * (1 + tmr_bias(tmr0, v, v_half)))
-    return conductance_angle(g_p, g_ap, cos_theta)
+    g_p = 1 / resistance_from_ra(ra, area)
+    # conductance_angle(g_p, g_p/(1 + TMR(V)), c) with 1/(1 + TMR(V)) = u/(u + tmr0),
+    # u = 1 + (V/V_h)^2: the same equation, written so the bias law appears once
+    u = 1 + (v / v_half) ** 2
+    return g_p / 2 * ((1 + cos_theta) + (1 - cos_theta) * u / (u + tmr0))
 
 
 def sharp_wall_fraction(q, length, width):
     """Fraction of an MTJ of ``length`` over a track whose magnetisation is +z for x < q and
     -z beyond, for a Walker-profile wall m_z = -tanh((x - q)/width):
-    <m_z> = (width/L) [ln cosh((L - q)/width) - ln cosh(q/width)]   (PHYSICS 6.5, derived).
+    <m_z> = (width/L) [ln cosh(q/width) - ln cosh((L - q)/width)]   (derived; the integral of
+    tanh((x - q)/width) over [0, L] is width [ln cosh((L - q)/width) - ln cosh(q/width)]).
     """
-    return width / length * (sp.log(sp.cosh((length - q) / width)) - sp.log(sp.cosh(q / width)))
+    return width / length * (sp.log(sp.cosh(q / width)) - sp.log(sp.cosh((length - q) / width)))
