@@ -42,9 +42,13 @@ class DwMtj(DeviceKind):
                "track on a heavy-metal line; junction read-out integrated over the wall profile")
 
     def param_specs(self) -> list[ParamSpec]:
-        keep = {"t_free": "ferromagnet (track) thickness", "ms": None, "ki": None, "kb": None, "alpha": None,
-                "hx": None, "hy": None, "hz": None}
-        track = [dataclasses.replace(s, desc=keep[s.name] or s.desc) for s in free_layer_specs() if s.name in keep]
+        keep = {"t_free": "ferromagnet (track) thickness", "ms": "saturation magnetisation of the track",
+                "ki": "interface anisotropy energy density of the track",
+                "kb": "bulk uniaxial anisotropy energy density of the track (perpendicular > 0)",
+                "alpha": "Gilbert damping of the track", "hx": None, "hy": None,
+                "hz": "external field along z (perpendicular; +z grows the domain between w1 and the wall)"}
+        track = [dataclasses.replace(s, desc=keep[s.name] or s.desc, group="track" if s.group != "fields" else s.group)
+                 for s in free_layer_specs() if s.name in keep]
         g = "track"
         geo = [
             ParamSpec("track_length", "m", 500 * NM, 20 * NM, 100e-6, "track length between the ports w1 and w2",
@@ -78,7 +82,9 @@ class DwMtj(DeviceKind):
                       "initial wall position from w1; 0 = at the junction's w1-side edge (mtj_start)",
                       kind="instance", card_unit="nm", group="instance"),
         ]
-        return (track + geo + mtj_read_specs() + [s for s in heavy_metal_specs()] + mtj + pin
+        fields = [s for s in track if s.group == "fields"]
+        track = [s for s in track if s.group != "fields"]
+        return (track + geo + fields + mtj_read_specs() + mtj + heavy_metal_specs() + pin
                 + limit_specs(v_max=1.0, j_max=5e12) + inst)
 
     def build_ir(self, name, values, options) -> ModelIR:
