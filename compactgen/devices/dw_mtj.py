@@ -320,9 +320,13 @@ def dw_benches(ir, values):
             probe = _probe(model, drives, _travel_time(L, dw, figs["v_dmi"], k))
             v_ss = steady_sot_velocity(model, j, values, float(probe.states["phi"][-1]))
             t_a, t_b = _settled_window(probe, L, v_ss)
+            h_sh = torques.spin_torque_field(j, values["theta_sh"], values["ms"], values["t_free"])
+            v_0 = float(domain_wall.sot_velocity_without_hk(h_sh, values["alpha"], figs["h_dmi"], dw)
+                        .xreplace(model.num))
             benches.append(Bench(
                 f"velocity_{k:g}jhalf", f"SOT-driven wall, no pinning: J = {k:g} x J_1/2 = {j / 1e10:.1f} MA/cm^2; "
-                f"speed over [{t_a * 1e9:.3f}, {t_b * 1e9:.3f}] ns",
+                f"speed over [{t_a * 1e9:.3f}, {t_b * 1e9:.3f}] ns; 1D steady state {v_ss:.5g} m/s, closed form "
+                f"without H_K {v_0:.5g} m/s (Thiaville et al. 2012), v_D = {figs['v_dmi']:.5g} m/s",
                 "tran", drives,
                 [Metric("wall velocity", "m/s", mean_rate("xw", t_a, t_b, L), 2e-3, 0.0, WHY_V + WHY_V_EXPECT,
                         expect=(v_ss, 5e-3 * abs(v_ss)))],
@@ -346,7 +350,7 @@ def dw_benches(ir, values):
             t_stop = 0.05e-9 + 2.2 * period
         benches.append(Bench(
             f"field_{k:g}hw", f"field-driven wall, no DMI, no pinning: hz = {k:g} x H_W = {hz * 4e-4 * np.pi:.3f} mT "
-            f"({'below' if k < 1 else 'above'} the Walker field); {how}",
+            f"({'below' if k < 1 else 'above'} the Walker field); {how}; Schryer & Walker: {closed:.5g} m/s",
             "tran", {}, [Metric("wall velocity", "m/s", metric, 2e-3, 0.0, WHY_V + WHY_VW_EXPECT,
                                 expect=(closed, 5e-3 * abs(closed)))],
             instance=inst, t_stop=t_stop, t_step=1e-11, max_step=tmax, plot=("state:xw", "state:phi")))
