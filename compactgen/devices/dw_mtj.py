@@ -26,7 +26,8 @@ from ..physics.constants import const_values, gamma0
 from .base import DeviceKind, register
 from .common import NM, Parts, free_layer_specs, limit_specs, mtj_conductance, mtj_read_specs
 from .sot_mtj import MT
-from .write_line import CONVENTIONS, heavy_metal_specs, line_current_density, three_terminal
+from .write_line import (CONVENTIONS, WHY_DC, heavy_metal_specs, line_current_density, line_resistance_bench,
+                         three_terminal)
 
 #: edge barriers: centre this many wall widths inside each track end, decay length one wall width
 EDGE_INSET = 3
@@ -202,9 +203,6 @@ class DwMtj(DeviceKind):
 
 
 # ---- benches ---------------------------------------------------------------------------------
-WHY_DC = ("DC operating point with an internal node: only the Newton tolerance (reltol 1e-6) and 17-digit "
-          "parameter printing separate the simulators from the reference; 0.1 % bounds both with margin")
-WHY_RLINE = WHY_DC + "; every run must give rho L/(w t) (PHYSICS 10) to 1e-6"
 WHY_SLICES = WHY_DC + ("; every run must match the junction conductance integrated slice by slice over the wall "
                        "profile by quadrature (PHYSICS 6.5) to 1e-6")
 WHY_V = ("wall speed from the slope of q(t) over a window after the wall angle has settled; trapezoidal steps of at "
@@ -275,8 +273,8 @@ def steady_sot_velocity(model, j: float, values: dict, phi_guess: float) -> floa
 def dw_benches(ir, values):
     import numpy as np
 
-    from ..benches import (Bench, Dc, Metric, Pulse, Pwl, branch_resistance_at, extreme_excursion, final_value,
-                           line_resistance_at, mean_rate, mean_rate_per_turn, resistance_at_time)
+    from ..benches import (Bench, Dc, Metric, Pulse, branch_resistance_at, extreme_excursion, mean_rate,
+                           mean_rate_per_turn)
     from ..reference import ReferenceModel, figures
     from .write_line import line_drive
 
@@ -289,11 +287,7 @@ def dw_benches(ir, values):
     tmax = 1e-12
     benches: list[Bench] = []
     # ---- DC: line resistance and read-out against the slice integral
-    benches.append(Bench(
-        "line_r", "track resistance: w1 swept -0.5..0.5 V, w2 = t = 0", "dc", {},
-        [Metric(f"R(w1-w2) at {v:+.2f} V", "ohm", line_resistance_at("w1", "w2", "mid", v), 1e-3, 0.0, WHY_RLINE,
-                expect=(figs["r_line"], 1e-6 * figs["r_line"])) for v in (-0.5, 0.1, 0.5)],
-        sweep=("w1", -0.5, 0.5, 0.05), plot=("resistance",)))
+    benches.append(line_resistance_bench(figs["r_line"]))
     for frac in (0.25, 0.5, 0.75):
         q0 = x_m + frac * l_m
         model = ReferenceModel(ir, {"wall0": q0})
@@ -492,7 +486,7 @@ def _pulse_train(ir, values, figs, toward_w2):
 def _long_pulse(ir, values, figs, toward_w2):
     import numpy as np
 
-    from ..benches import Bench, Dc, Metric, Pulse, final_value
+    from ..benches import Bench, Dc, Metric, Pulse
     from ..reference import ReferenceModel
     from .write_line import line_drive
 

@@ -20,10 +20,11 @@ from ..params import ParamSpec
 from ..physics import geometry, heavy_metal, macrospin, spin_orbit, torques
 from ..physics.constants import const_values
 from .base import DeviceKind, register
-from .common import (NM, Parts, cylinder_nz, free_layer, free_layer_specs, limit_specs, macrospin_states,
+from .common import (NM, Parts, free_layer, free_layer_specs, limit_specs, macrospin_states,
                      mtj_conductance, mtj_read_specs, orientation_specs)
 from .stt_mtj import SttMtj
-from .write_line import CONVENTIONS, heavy_metal_specs, line_current_density, three_terminal
+from .write_line import (CONVENTIONS, WHY_DC, heavy_metal_specs, line_current_density, line_resistance_bench,
+                         three_terminal)
 
 MT = 1e-3 / MU0  # A/m per mT, for readable defaults
 
@@ -53,11 +54,7 @@ class SotMtj(DeviceKind):
         return (fl + mtj_read_specs() + heavy_metal_specs() + line + stt
                 + limit_specs(v_max=1.0, j_max=1.5e13) + orientation_specs())
 
-    def derive_defaults(self, values, options, given=frozenset()):
-        out = dict(values)
-        if "demag_nz" not in given:
-            out["demag_nz"] = cylinder_nz(values, options.get("demag", "cylinder"))
-        return out
+    derive_defaults = SttMtj.derive_defaults  # demagnetising factor from the pillar, as for stt-mtj
 
     def build_ir(self, name, values, options) -> ModelIR:
         table = self.table_with(values)
@@ -133,9 +130,6 @@ class SotMtj(DeviceKind):
 
 
 # ---- benches ---------------------------------------------------------------------------------
-WHY_DC = ("DC operating point with an internal node: only the Newton tolerance (reltol 1e-6) and 17-digit "
-          "parameter printing separate the simulators from the reference; 0.1 % bounds both with margin")
-WHY_RLINE = WHY_DC + "; every run must give rho L/(w t) (PHYSICS 10) to 1e-6"
 WHY_RP = WHY_DC + "; in the parallel state every run must give RA/area at any bias (TMR roll-off acts on R_AP only)"
 WHY_TSW = ("trapezoidal integration with a step cap of 1/25 of the precession period; the crossing of m_z = 0 "
            "comes 0.1-0.2 ns into the pulse, soon after its 50 ps edge; 1 % leaves margin for the restart there")
@@ -155,8 +149,8 @@ RAMP = 20e-9
 
 
 def sot_benches(ir, values):
-    from ..benches import (Bench, Dc, Metric, Pulse, Pwl, branch_resistance_at, current_at_crossing,
-                           final_value, line_resistance_at, switching_time)
+    from ..benches import (Bench, Dc, Metric, Pulse, Pwl, branch_resistance_at, current_at_crossing, final_value,
+                           switching_time)
     from ..reference import ReferenceModel, figures
     from .write_line import line_drive
 
@@ -165,13 +159,7 @@ def sot_benches(ir, values):
     cross = values["line_width"] * values["t_hm"]
     tmax = min(2e-12, 1.0 / (25.0 * figs["f_fmr"]))
     benches: list[Bench] = []
-    # write-line resistance: w1 swept, w2 and t at 0 V
-    sweep = ("w1", -0.5, 0.5, 0.05)
-    benches.append(Bench(
-        "line_r", "write-line resistance: w1 swept -0.5..0.5 V, w2 = t = 0", "dc", {},
-        [Metric(f"R(w1-w2) at {v:+.2f} V", "ohm", line_resistance_at("w1", "w2", "mid", v), 1e-3, 0.0, WHY_RLINE,
-                expect=(figs["r_line"], 1e-6 * figs["r_line"])) for v in (-0.5, 0.1, 0.5)],
-        sweep=sweep, plot=("resistance",)))
+    benches.append(line_resistance_bench(figs["r_line"]))
     # junction read: t swept, both line ends at 0 V
     sweep = ("t", -0.5, 0.5, 0.05)
     for state0, label in ((1.0, "parallel"), (-1.0, "antiparallel")):

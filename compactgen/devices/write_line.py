@@ -68,6 +68,23 @@ def line_current_density(parts: Parts, name: str, current, width):
     return parts.loc(name, heavy_metal.current_density(current, width, parts.P["t_hm"]))
 
 
+WHY_DC = ("DC operating point with an internal node: only the Newton tolerance (reltol 1e-6) and 17-digit "
+          "parameter printing separate the simulators from the reference; 0.1 % bounds both with margin")
+WHY_RLINE = WHY_DC + "; every run must give rho L/(w t) (PHYSICS 10) to 1e-6"
+
+
+def line_resistance_bench(r_line: float):
+    """DC bench: w1 swept -0.5..0.5 V with w2 and t at 0 V; the line resistance from the port
+    currents and the junction node's voltage must be rho L/(w t)."""
+    from ..benches import Bench, Metric, line_resistance_at
+
+    return Bench(
+        "line_r", "write-line resistance: w1 swept -0.5..0.5 V, w2 = t = 0", "dc", {},
+        [Metric(f"R(w1-w2) at {v:+.2f} V", "ohm", line_resistance_at("w1", "w2", "mid", v), 1e-3, 0.0, WHY_RLINE,
+                expect=(r_line, 1e-6 * r_line)) for v in (-0.5, 0.1, 0.5)],
+        sweep=("w1", -0.5, 0.5, 0.05), plot=("resistance",))
+
+
 CONVENTIONS = [
     "Ports in order: w1, w2 (write-line ends; +x runs from w1 to w2), t (junction top electrode, "
     "reference-layer side). The junction bottom is the write line itself (internal node mid), so read "
