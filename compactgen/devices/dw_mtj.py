@@ -190,6 +190,8 @@ class DwMtj(DeviceKind):
                 "Internal node xw carries the wall position as a fraction of track_length (1 V = w2 end), phi the "
                 "wall angle in radians.",
                 "Smooth barriers within about 3 wall widths of each end keep the wall inside the track.",
+                "Validity: rigid 1D wall narrower than the track width (no tilt, no Bloch lines), no thermal creep; "
+                "the pinning landscape is an idealised periodic one (fit h_dep and pin_pitch to your devices).",
             ],
             constraints=parts.constraints,
             limits={"v_max": cell["v_tm"], "j_max": j_peak},

@@ -117,6 +117,9 @@ class SotMtj(DeviceKind):
                 "Instance parameter state0 = +1 starts the free layer parallel, -1 antiparallel; tilt0 sets the "
                 "initial cone angle (0 = thermal most-probable angle at tnom).",
                 "Internal nodes mx, my, mz carry the free-layer unit vector as voltages (1 V = 1).",
+                "Validity: macrospin; real free layers larger than the nucleation size switch by domain nucleation "
+                "and wall motion at lower currents; at small damping a step pulse may end in either state (use a "
+                "trailing edge the free layer can follow).",
             ],
             constraints=parts.constraints,
             limits={"v_max": cell["v_tm"], "j_max": j_line},
