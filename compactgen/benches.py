@@ -81,23 +81,6 @@ class Pwl:
         return [t for t, _ in self.points if t < t_end]
 
 
-def pulse_train(levels: list[tuple[float, float]], rise: float, start: float = 0.0) -> Pwl:
-    """A Pwl through consecutive (level, duration) segments joined by ramps of ``rise``
-    (the first segment starts at ``start`` after a level of 0)."""
-    pts = [(0.0, 0.0)]
-    t, v = start, 0.0
-    if start > 0:
-        pts.append((start, 0.0))
-    for level, duration in levels:
-        if level != v:
-            t += rise
-            pts.append((t, level))
-            v = level
-        t += duration
-        pts.append((t, level))
-    return Pwl(tuple(pts))
-
-
 # ---- metrics -----------------------------------------------------------------------------
 @dataclass
 class Metric:
