@@ -75,6 +75,7 @@ def _common(ir: ModelIR) -> dict:
         name=ir.name, title=ir.title, kind=ir.kind, version=__version__, digest=ir.digest(),
         param_digest=param_digest(ir), conventions=ir.conventions,
         ports=[t.name for t in ir.terminals],
+        nodes=[n.name for n in ir.nodes],
     )
 
 
