@@ -62,6 +62,25 @@ class Pulse:
         return 1e3 * (self.delay + self.rise + self.width + self.fall)  # never repeats in a bench
 
 
+@dataclass(frozen=True)
+class Pwl:
+    """A piecewise-linear waveform through (time, value) corners; constant after the last."""
+
+    points: tuple[tuple[float, float], ...]
+
+    def __post_init__(self):
+        ts = [t for t, _ in self.points]
+        if not ts or ts[0] != 0.0 or any(b <= a for a, b in zip(ts[:-1], ts[1:])):
+            raise ValueError("Pwl corners must start at t = 0 and increase strictly")
+
+    def value(self, t: float) -> float:
+        ts, vs = zip(*self.points)
+        return float(np.interp(t, ts, vs))
+
+    def breakpoints(self, t_end: float) -> list[float]:
+        return [t for t, _ in self.points if t < t_end]
+
+
 # ---- metrics -----------------------------------------------------------------------------
 @dataclass
 class Metric:
@@ -157,5 +176,95 @@ def final_value(state: str):
 def extreme_value(state: str, sign: int):
     def f(tr: Trace) -> float:
         return float(sign * np.max(sign * tr.states[state]))
+
+    return f
+
+
+# ---- three-terminal cells and wall motion ------------------------------------------------------
+def _sweep_index(tr: Trace, term: str, v: float) -> int:
+    vv = tr.voltages[term]
+    k = int(np.argmin(np.abs(vv - v)))
+    if abs(vv[k] - v) > 1e-9:
+        raise ValueError(f"bias {v} V is not a sweep point")
+    return k
+
+
+def branch_resistance_at(term: str, node: str, v: float):
+    """DC: (V_term - V_node)/I_term at the sweep point V_term = v, where ``node`` may be an
+    internal node (its voltage is in the trace)."""
+
+    def f(tr: Trace) -> float:
+        k = _sweep_index(tr, term, v)
+        return float((tr.voltages[term][k] - tr.voltages[node][k]) / tr.currents[term][k])
+
+    return f
+
+
+def line_resistance_at(a: str, b: str, node: str, v: float):
+    """DC: resistance of a line a - node - b from the current into a, the current out of b and
+    the node voltage, at the sweep point V_a = v: (V_a - V_n)/I_a + (V_n - V_b)/(-I_b)."""
+
+    def f(tr: Trace) -> float:
+        k = _sweep_index(tr, a, v)
+        vn = tr.voltages[node][k]
+        return float((tr.voltages[a][k] - vn) / tr.currents[a][k] + (vn - tr.voltages[b][k]) / -tr.currents[b][k])
+
+    return f
+
+
+def resistance_at_time(term: str, node: str, at: float):
+    """Transient: (V_term - V_node)/I_term interpolated at time ``at``."""
+
+    def f(tr: Trace) -> float:
+        v = np.interp(at, tr.t, tr.voltages[term] - tr.voltages[node])
+        return float(v / np.interp(at, tr.t, tr.currents[term]))
+
+    return f
+
+
+def current_at_crossing(state: str, level: float, direction: int, term: str, scale: float = 1.0):
+    """Transient: ``scale`` times the current into ``term`` when ``state`` first crosses ``level``."""
+
+    def f(tr: Trace) -> float:
+        tc = crossing_time(tr.t, tr.states[state], level, 0.0, direction)
+        return float(scale * np.interp(tc, tr.t, tr.currents[term])) if np.isfinite(tc) else float("nan")
+
+    return f
+
+
+def mean_rate(state: str, t_a: float, t_b: float, scale: float = 1.0):
+    """Transient: ``scale`` times (x(t_b) - x(t_a))/(t_b - t_a), e.g. a steady wall velocity."""
+
+    def f(tr: Trace) -> float:
+        x = tr.states[state]
+        return float(scale * (np.interp(t_b, tr.t, x) - np.interp(t_a, tr.t, x)) / (t_b - t_a))
+
+    return f
+
+
+def mean_rate_per_turn(state: str, angle: str, after: float, turns: int, scale: float = 1.0):
+    """Transient: ``scale`` times the mean rate of ``state`` over ``turns`` whole turns (2 pi) of
+    the angle state ``angle`` counted from its value at ``after``: the time average of a periodic
+    motion (e.g. a wall precessing above the Walker field)."""
+
+    def f(tr: Trace) -> float:
+        ang = tr.states[angle]
+        a0 = float(np.interp(after, tr.t, ang))
+        sgn = 1 if ang[-1] >= a0 else -1
+        t1 = crossing_time(tr.t, ang, a0 + sgn * 2 * np.pi * turns, after, sgn)
+        if not np.isfinite(t1):
+            return float("nan")
+        x = tr.states[state]
+        return float(scale * (np.interp(t1, tr.t, x) - np.interp(after, tr.t, x)) / (t1 - after))
+
+    return f
+
+
+def extreme_excursion(state: str, scale: float = 1.0):
+    """Transient: ``scale`` times the largest |x(t) - x(0)|."""
+
+    def f(tr: Trace) -> float:
+        x = tr.states[state]
+        return float(scale * np.max(np.abs(x - x[0])))
 
     return f

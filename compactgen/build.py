@@ -50,7 +50,7 @@ def datasheet(card: Card, ir: ModelIR, figs: dict[str, float]) -> str:
         instance_params=[dict(name=s.name, default=format_number(s.default)) for s in ir.params
                          if s.kind == "instance"],
         step_cap=f'{(min(2e-12, 1 / (25 * figs["f_fmr"])) if "f_fmr" in figs else 2e-12):.3g}',
-        figures=fig_rows, params=prm, states=ir.states, outputs=ir.outputs,
+        figures=fig_rows, params=prm, states=ir.states, outputs=ir.outputs, nodes=ir.nodes,
         derived=[dict(lhs=lat(k), rhs=lat(e)) for k, e in ir.derived],
         locals=[dict(lhs=lat(k), rhs=lat(e)) for k, e in ir.locals],
     )

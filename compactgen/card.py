@@ -181,8 +181,8 @@ def card_text(kind_key: str, name: str, values: dict[str, float] | None = None, 
             text = spec.card_text(u)
             lines.append(f'{k} = "{text}"' if (spec.card_unit or spec.unit) not in ("1", "") else f"{k} = {text}")
     if provenance:
-        lines += ["", "[provenance]"]
-        lines += _toml_table(provenance)
+        lines += [""]
+        lines += _toml_table({"provenance": provenance})  # nested tables stay under [provenance.*]
     return "\n".join(lines) + "\n"
 
 

@@ -7,6 +7,11 @@ Evaluation order inside a model: parameters -> ``derived`` (parameter-only expre
 ``locals`` (expressions of terminal voltages, states and temperature) -> state right-hand
 sides, branch currents and outputs.
 
+Internal electrical nodes (``nodes``) are circuit nodes inside the model that are not states,
+e.g. the middle of a write line that is also the bottom of a tunnel junction.  Branches and
+voltage probes may use them; both back ends declare them as ordinary nodes, and the reference
+solver finds their voltages by Kirchhoff's current law at every evaluation.
+
 State equations.  Each state x with right-hand side f (in 1/s) and initial value x0 lives on
 an internal node.  Both back ends write the same residual, current leaving the node:
 
@@ -31,6 +36,14 @@ SIM_TIME = sp.Symbol("sim_time", nonnegative=True)
 
 @dataclass(frozen=True)
 class Terminal:
+    name: str
+    desc: str
+
+
+@dataclass(frozen=True)
+class Node:
+    """An internal electrical node (not a state): its voltage follows from KCL."""
+
     name: str
     desc: str
 
@@ -101,6 +114,8 @@ class ModelIR:
     shared: dict[sp.Symbol, sp.Expr] = field(default_factory=dict)
     #: filled by hoisted(): the residual of each state with coefficients hoisted
     residuals: dict[str, sp.Expr] = field(default_factory=dict)
+    #: internal electrical nodes (not states); branches and voltage probes may use them
+    nodes: list[Node] = field(default_factory=list)
 
     # ---- queries -------------------------------------------------------------------------
     def param_symbols(self) -> dict[str, sp.Symbol]:
@@ -168,9 +183,21 @@ class ModelIR:
         for o in self.outputs:
             _need(o.expr, known_rt, f"output {o.name}")
         term = {t.name for t in self.terminals}
+        inner = [n.name for n in self.nodes]
+        names = [*term, *inner, *(s.name for s in self.states)]
+        clash = {n for n in names if names.count(n) > 1} | ({"clk", "stress", "0"} & set(names))
+        if clash:
+            raise ValueError(f"node names used twice or reserved: {sorted(clash)}")
+        known_nodes = term | set(inner)
         for pos, neg in self.voltages.values():
-            if pos not in term or (neg not in term and neg != "0"):
-                raise ValueError(f"voltage probe ({pos},{neg}) uses an unknown terminal")
+            if pos not in known_nodes or (neg not in known_nodes and neg != "0"):
+                raise ValueError(f"voltage probe ({pos},{neg}) uses an unknown terminal or node")
+        for b in self.branches:
+            if b.pos not in known_nodes or (b.neg not in known_nodes and b.neg != "0"):
+                raise ValueError(f"branch ({b.pos},{b.neg}) uses an unknown terminal or node")
+        for n in inner:
+            if not any(n in (b.pos, b.neg) for b in self.branches):
+                raise ValueError(f"internal node {n} has no branch (its voltage would be undefined)")
 
     def digest(self) -> str:
         """A stable hash of the model equations (goes into generated headers and manifests)."""
@@ -183,6 +210,8 @@ class ModelIR:
     def _canonical_parts(self):
         yield self.kind
         yield ",".join(t.name for t in self.terminals)
+        if self.nodes:
+            yield "nodes:" + ",".join(n.name for n in self.nodes)
         for s in self.params:
             yield f"{s.name}|{s.unit}|{s.default!r}|{s.lo!r}|{s.hi!r}|{s.kind}"
         for sym, e in self.derived + self.locals:

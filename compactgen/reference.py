@@ -110,35 +110,127 @@ class ReferenceModel:
         self._limits = {name: sp.lambdify(args, prep(sym), modules="numpy") for name, sym in ir.limits.items()}
         self.initial = np.array([_evaluate(prep(s.initial), {}, s.name) for s in ir.states])
         self.terminals = [t.name for t in ir.terminals]
+        self.nodes = [n.name for n in ir.nodes]
+        self._node_guess = None
+        if self.nodes:
+            self._kcl = self._kcl_function([prep(b.current) for b in ir.branches])
+
+    # ---- internal electrical nodes ---------------------------------------------------------
+    def _kcl_function(self, currents):
+        """One function giving, for the internal nodes, the current leaving each through the
+        device branches (KCL residual) and its Jacobian with respect to the node voltages."""
+        names = self.terminals + self.nodes
+        vn = {n: sp.Symbol(f"_node_{n}", real=True) for n in names}
+        vn["0"] = sp.Integer(0)
+        probe = {sym: vn[p] - vn[n] for sym, (p, n) in self.ir.voltages.items()}
+        resid = []
+        for k in self.nodes:
+            f = sp.Integer(0)
+            for b, i in zip(self.ir.branches, currents):
+                if b.pos == k:
+                    f += i
+                if b.neg == k:
+                    f -= i
+            resid.append(f.xreplace(probe))
+        inner = [vn[n] for n in self.nodes]
+        jac = [sp.diff(f, x) for f in resid for x in inner]
+        return sp.lambdify([vn[n] for n in names] + self.ssyms, resid + jac, modules="numpy", cse=True)
+
+    def solve_nodes(self, node_v: dict, y) -> dict:
+        """``node_v`` (terminal voltages) completed with the internal-node voltages that satisfy
+        KCL, by Newton's method (vectorised over arrays; warm-started from the last solution)."""
+        if not self.nodes or all(k in node_v for k in self.nodes):
+            return node_v
+        tv = [node_v[t] for t in self.terminals]
+        if all(np.ndim(v) == 0 for v in (*tv, *y)):
+            return self._solve_nodes_scalar(node_v, tv, y)
+        n = len(self.nodes)
+        shape = np.broadcast(*[np.asarray(node_v[t]) for t in self.terminals], *[np.asarray(v) for v in y]).shape
+        guess = self._node_guess
+        if guess is not None and guess.shape == (n, *shape):
+            x = guess.copy()
+        else:
+            x = np.zeros((n, *shape))
+        scale = 1.0 + max(float(np.max(np.abs(np.asarray(v)))) for v in tv) if tv else 1.0
+        for _ in range(60):
+            vals = [np.broadcast_to(np.asarray(v, dtype=float), shape) for v in self._kcl(*tv, *x, *y)]
+            f = np.stack(vals[:n])
+            jac = np.stack(vals[n:]).reshape((n, n, *shape))
+            if n == 1:
+                dx = f / jac[0]
+            else:
+                dx = np.moveaxis(np.linalg.solve(np.moveaxis(jac, (0, 1), (-2, -1)),
+                                                 np.moveaxis(f, 0, -1)[..., None])[..., 0], -1, 0)
+            x = x - dx
+            if np.max(np.abs(dx), initial=0.0) <= 1e-13 * scale:
+                break
+        else:
+            if all(np.all(np.isfinite(v)) for v in (*tv, *y)):
+                raise RuntimeError(f"reference solver: KCL at internal nodes {self.nodes} did not converge")
+            x = np.full_like(x, np.nan)  # a trial step of the integrator left the sphere: let it reject
+        self._node_guess = x if np.all(np.isfinite(x)) else None
+        out = dict(node_v)
+        out.update({name: x[i] if shape else float(x[i]) for i, name in enumerate(self.nodes)})
+        return out
+
+    def _solve_nodes_scalar(self, node_v, tv, y):
+        """solve_nodes for one operating point (the integrator's case): plain floats, no arrays."""
+        n = len(self.nodes)
+        guess = self._node_guess
+        x = list(guess) if guess is not None and np.shape(guess) == (n,) else [0.0] * n
+        tol = 1e-13 * (1.0 + max(abs(float(v)) for v in tv))
+        for _ in range(60):
+            vals = self._kcl(*tv, *x, *y)
+            if n == 1:
+                dx = [vals[0] / vals[1]]
+            else:
+                dx = list(np.linalg.solve(np.reshape(np.asarray(vals[n:], dtype=float), (n, n)),
+                                          np.asarray(vals[:n], dtype=float)))
+            x = [a - b for a, b in zip(x, dx)]
+            if max(abs(d) for d in dx) <= tol:
+                break
+        else:
+            if all(np.isfinite(v) for v in (*tv, *y)):
+                raise RuntimeError(f"reference solver: KCL at internal nodes {self.nodes} did not converge")
+            x = [float("nan")] * n  # a trial step of the integrator left the sphere: let it reject
+        self._node_guess = np.array(x) if all(np.isfinite(x)) else None
+        out = dict(node_v)
+        out.update({name: float(x[i]) for i, name in enumerate(self.nodes)})
+        return out
 
     # ---- evaluation --------------------------------------------------------------------
     def probe_values(self, node_v: dict[str, np.ndarray | float]) -> list:
+        """Voltages of the probes; ``node_v`` must hold every terminal and internal node."""
         def v(n):
             return 0.0 if n == "0" else node_v[n]
 
         return [v(p) - v(n) for p, n in self.ir.voltages.values()]
 
+    def _probes(self, node_v, y) -> list:
+        return self.probe_values(self.solve_nodes(node_v, y))
+
     def rhs(self, node_v, y):
-        return np.array(self._rhs(*self.probe_values(node_v), *y), dtype=float)
+        return np.array(self._rhs(*self._probes(node_v, y), *y), dtype=float)
 
     def terminal_currents(self, node_v, y) -> dict[str, np.ndarray]:
         """Current flowing into the device at each terminal [A]."""
-        vals = self._branch(*self.probe_values(node_v), *y)
+        vals = self._branch(*self._probes(node_v, y), *y)
         out = {t: 0.0 for t in self.terminals}
         for b, i in zip(self.ir.branches, vals):
-            out[b.pos] = out[b.pos] + i
-            if b.neg != "0":
+            if b.pos in out:
+                out[b.pos] = out[b.pos] + i
+            if b.neg in out:
                 out[b.neg] = out[b.neg] - i
         return out
 
     def output(self, name, node_v, y):
-        return self._outputs[name](*self.probe_values(node_v), *y)
+        return self._outputs[name](*self._probes(node_v, y), *y)
 
     def check_range(self, node_v, y, where: str = "") -> list[str]:
         """Warn (OutOfCalibratedRange) where the drive exceeds a calibrated-range limit."""
         notes = []
         for name, fn in self._limits.items():
-            value = np.max(np.abs(fn(*self.probe_values(node_v), *y)))
+            value = np.max(np.abs(fn(*self._probes(node_v, y), *y)))
             limit = self.num[self.ir.params[name].symbol]
             if value > limit:
                 spec = self.ir.params[name]
@@ -153,6 +245,7 @@ class ReferenceModel:
         """DC operating points with the states held at their initial values (as in both
         simulators' operating point)."""
         y = [np.full_like(np.asarray(next(iter(node_v.values())), dtype=float), y0) for y0 in self.initial]
+        node_v = self.solve_nodes(node_v, y)
         cur = self.terminal_currents(node_v, y)
         return Trace(t=np.zeros(0), voltages={k: np.asarray(v, float) for k, v in node_v.items()},
                      currents={k: np.broadcast_to(v, y[0].shape).astype(float) for k, v in cur.items()},
@@ -169,7 +262,10 @@ class ReferenceModel:
             return {n: (drives[n].value(t) if n in drives else 0.0) for n in self.terminals}
 
         def f(t, y):
-            return self.rhs(node_v(t), y)
+            # a trial stage of a rejected step may leave the sphere far enough for the cubic
+            # restoring term to overflow; the step is then rejected, so stay quiet about it
+            with np.errstate(over="ignore", invalid="ignore"):
+                return self.rhs(node_v(t), y)
 
         ts, ys = [], []
         last_t = None
@@ -179,7 +275,9 @@ class ReferenceModel:
         for a, b in zip(bps[:-1], bps[1:]):
             if b - a <= 0:
                 continue
-            sol = solve_ivp(f, (a, b), y, method="DOP853", rtol=rtol, atol=atol, dense_output=True, max_step=step)
+            with np.errstate(over="ignore", invalid="ignore"):  # rejected trial steps may overflow
+                sol = solve_ivp(f, (a, b), y, method="DOP853", rtol=rtol, atol=atol, dense_output=True,
+                                max_step=step)
             if not sol.success:
                 raise RuntimeError(f"reference solver failed on [{a:.3e}, {b:.3e}] s: {sol.message}")
             if t_eval is None:
@@ -197,6 +295,7 @@ class ReferenceModel:
         yy = np.concatenate(ys, axis=1)
         nv = {n: (np.array([drives[n].value(x) for x in t]) if n in drives else np.zeros_like(t))
               for n in self.terminals}
+        nv = self.solve_nodes(nv, list(yy))
         cur = self.terminal_currents(nv, list(yy))
         self.check_range(nv, list(yy))
         return Trace(t=t, voltages=nv, currents={k: np.broadcast_to(v, t.shape).astype(float) for k, v in cur.items()},

@@ -75,6 +75,7 @@ def _common(ir: ModelIR) -> dict:
         name=ir.name, title=ir.title, kind=ir.kind, version=__version__, digest=ir.digest(),
         param_digest=param_digest(ir), conventions=ir.conventions,
         ports=[t.name for t in ir.terminals],
+        nodes=[n.name for n in ir.nodes],
     )
 
 
@@ -119,6 +120,18 @@ def ngspice(ir: ModelIR) -> str:
     for sym, e in ir.derived:
         if sym in tdep:
             inline[sym] = e.xreplace(inline)
+    def compact(e):
+        """The smaller of the expression as composed and its expanded, term-merged form (the
+        expanded form suits polynomial state equations, the composed one rational read-outs),
+        with parameter-only parts hoisted."""
+        e = sp.sympify(e)
+        candidates = [e, collect_terms(e, hoist.base)]
+
+        def size(x):
+            return sp.count_ops(Hoister(hoist.base)(x))
+
+        return hoist(min(candidates, key=size))
+
     aux, extra_derived = [], []
     for sym, e in ir.locals:
         if sym in ir.shared:
@@ -128,8 +141,7 @@ def ngspice(ir: ModelIR) -> str:
             inv = sp.Symbol(f"kis_{sym}", positive=True)
             extra_derived += [(scale, ir.shared[sym]), (inv, 1 / scale)]
             hoist.base |= {scale, inv}
-            flat = collect_terms((inv * e).xreplace(inline), hoist.base)
-            aux.append(dict(name=str(sym), code=spice_wrap(pr.code(hoist(flat)))))
+            aux.append(dict(name=str(sym), code=spice_wrap(pr.code(compact((inv * e).xreplace(inline))))))
             node = sp.Symbol(f"aux_{sym}", real=True)
             pr.symbol_map[node.name] = f"V({sym})"
             inline[sym] = scale * node
@@ -137,7 +149,7 @@ def ngspice(ir: ModelIR) -> str:
             inline[sym] = e.xreplace(inline)
 
     def code(e):
-        return pr.code(hoist(collect_terms(sp.sympify(e).xreplace(inline), hoist.base)))
+        return pr.code(compact(sp.sympify(e).xreplace(inline)))
 
     def residual(st):
         hold = sp.Piecewise((sp.Symbol("_flow"), SIM_TIME > 0), (sp.Symbol("_hold"), True))

@@ -63,6 +63,10 @@ def to_si(text, unit: str, where: str = "") -> float:
         value = float(q.to("T").magnitude) / MU0  # mu0*H given in tesla
     elif unit == "A/m" and q.check(ureg.oersted.dimensionality):
         value = float(q.to("oersted").magnitude) * 1000.0 / (4.0 * math.pi)
+    elif unit == "A/m/s" and q.check((ureg.tesla / ureg.second).dimensionality):
+        value = float(q.to("T/s").magnitude) / MU0  # a field sweep rate given as mu0*dH/dt
+    elif unit == "A/m/s" and q.check((ureg.oersted / ureg.second).dimensionality):
+        value = float(q.to("oersted/s").magnitude) * 1000.0 / (4.0 * math.pi)
     else:
         raise UnitError(
             f"{_where(where)}{text!r} has the wrong dimension: expected [{unit}] "
@@ -105,3 +109,11 @@ def from_si(value: float, si_unit: str, unit: str) -> float:
     if si_unit == "K" and unit == "degC":
         return float(value) - 273.15
     return convert(value, si_unit, unit)
+
+
+def linear_map(unit: str, si_unit: str, where: str = "") -> tuple[float, float]:
+    """(scale, offset) such that value_si = scale * value + offset for numbers written in
+    ``unit`` (a data-file column); offset is non-zero only for degC/degF temperatures."""
+    zero = to_si(f"0 {unit}", si_unit, where)
+    one = to_si(f"1 {unit}", si_unit, where)
+    return one - zero, zero

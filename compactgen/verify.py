@@ -17,7 +17,7 @@ from pathlib import Path
 import numpy as np
 
 from . import render
-from .benches import Bench, Dc, Pulse
+from .benches import Bench, Dc, Pulse, Pwl
 from .errors import OutOfCalibratedRange, SimulationError
 from .ir import ModelIR
 from .printing.base import format_number
@@ -89,18 +89,26 @@ def _drives(ir: ModelIR, bench: Bench) -> list[dict]:
     for t in ir.terminals:
         w = bench.drives.get(t.name, Dc(0.0))
         if isinstance(w, Pulse):
-            out.append(dict(term=t.name, pulse=True, v0=format_number(w.v0), v1=format_number(w.v1),
+            out.append(dict(term=t.name, pulse=True, pwl=False, v0=format_number(w.v0), v1=format_number(w.v1),
                             delay=format_number(w.delay), rise=format_number(w.rise), fall=format_number(w.fall),
                             width=format_number(w.width), period=format_number(w.period)))
+        elif isinstance(w, Pwl):
+            out.append(dict(term=t.name, pulse=False, pwl=True,
+                            points=[(format_number(a), format_number(b)) for a, b in w.points]))
         else:
-            out.append(dict(term=t.name, pulse=False, level=format_number(w.level)))
+            out.append(dict(term=t.name, pulse=False, pwl=False, level=format_number(w.level)))
     return out
 
 
 def _context(ir: ModelIR, bench: Bench) -> dict:
+    # a bench may set model parameters too: ngspice takes every subcircuit parameter on the
+    # instance line; VACASK takes model parameters only on the model line
+    model_kind = {s.name: s.kind == "model" for s in ir.params}
     ctx = dict(bench=bench.name, title=bench.title, module=ir.name, drives=_drives(ir, bench),
                nodes=" ".join(f"n_{t.name}" for t in ir.terminals),
                instance=[(k, format_number(v)) for k, v in bench.instance.items()],
+               instance_only=[(k, format_number(v)) for k, v in bench.instance.items() if not model_kind.get(k)],
+               model_params=[(k, format_number(v)) for k, v in bench.instance.items() if model_kind.get(k)],
                analysis=bench.analysis, reltol=format_number(RELTOL))
     if bench.analysis == "dc":
         term, a, b, step = bench.sweep
@@ -125,10 +133,12 @@ def vacask_netlist(ir: ModelIR, bench: Bench, osdi_name: str) -> str:
 def _trace_ngspice(ir: ModelIR, bench: Bench, data: dict) -> Trace:
     terms = [t.name for t in ir.terminals]
     t = data["time"] if bench.analysis == "tran" else np.zeros(0)
-    return Trace(t=np.asarray(t),
+    tr = Trace(t=np.asarray(t),
                  voltages={n: np.asarray(data[f"n_{n}"]) for n in terms},
                  currents={n: -np.asarray(data[f"v_{n}#branch"]) for n in terms},
                  states={s.name: np.asarray(data[f"xdut.{s.name}"]) for s in ir.states})
+    tr.voltages.update({n.name: np.asarray(data[f"xdut.{n.name}"]) for n in ir.nodes})
+    return tr
 
 
 def _trace_vacask(ir: ModelIR, bench: Bench, plots: dict) -> Trace:
@@ -136,10 +146,12 @@ def _trace_vacask(ir: ModelIR, bench: Bench, plots: dict) -> Trace:
     plot = plots["tr1" if bench.analysis == "tran" else "dc1"]
     d = plot.data
     t = d["time"] if bench.analysis == "tran" else np.zeros(0)
-    return Trace(t=np.asarray(t),
+    tr = Trace(t=np.asarray(t),
                  voltages={n: np.asarray(d[f"n_{n}"]) for n in terms},
                  currents={n: -np.asarray(d[f"v_{n}:flow(br)"]) for n in terms},
                  states={s.name: np.asarray(d[f"xdut:{s.name}"]) for s in ir.states})
+    tr.voltages.update({n.name: np.asarray(d[f"xdut:{n.name}"]) for n in ir.nodes})
+    return tr
 
 
 def reference_trace(ir: ModelIR, bench: Bench) -> Trace:

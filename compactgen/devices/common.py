@@ -137,9 +137,11 @@ def free_layer(parts: Parts, area):
                 tsc=tsc, tilt=tilt, sgn0=sgn)
 
 
-def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p):
+def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p, extra_torques=()):
     """Cartesian macrospin states (m_x, m_y, m_z): non-singular at both poles; |m| = 1 kept by
-    the sphere-restoring term at rate 1/tsc.  Returns (state symbols, rhs list, initial list)."""
+    the sphere-restoring term at rate 1/tsc.  ``extra_torques`` adds further (h_dl, h_fl, p)
+    torques (the torque terms of the explicit LLG are linear in them, so they add).
+    Returns (state symbols, states)."""
     from ..ir import State
 
     P = parts.P
@@ -150,6 +152,8 @@ def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p):
     hy_ = parts.loc("heff_y", heff[1])
     hz_ = parts.loc("heff_z", heff[2])
     rhs = macrospin.llg_explicit(m, (hx_, hy_, hz_), P["alpha"], h_dl, h_fl, p)
+    for dl, fl_, pp in extra_torques:
+        rhs = rhs + macrospin.llg_explicit(m, (0, 0, 0), P["alpha"], dl, fl_, pp)
     rhs = rhs + macrospin.sphere_restoring(m, 1 / fl["tsc"])
     init = [sp.sin(fl["tilt"]), sp.Integer(0), fl["sgn0"] * sp.cos(fl["tilt"])]
     descs = ["free-layer m_x", "free-layer m_y", "free-layer m_z (+1 = parallel to the reference layer)"]

@@ -48,7 +48,14 @@ def mtj_conductance(ra, area, tmr0, v_half, v, cos_theta):
 def sharp_wall_fraction(q, length, width):
     """Fraction of an MTJ of ``length`` over a track whose magnetisation is +z for x < q and
     -z beyond, for a Walker-profile wall m_z = -tanh((x - q)/width):
-    <m_z> = (width/L) [ln cosh(q/width) - ln cosh((L - q)/width)]   (derived; the integral of
-    tanh((x - q)/width) over [0, L] is width [ln cosh((L - q)/width) - ln cosh(q/width)]).
+    <m_z> = -(width/L) [ln cosh((L - q)/width) - ln cosh(q/width)]   (PHYSICS 6.5, derived:
+    the integral of tanh((x - q)/width) over [0, L] is width [ln cosh((L - q)/width) - ln cosh(q/width)]).
     """
-    return width / length * (sp.log(sp.cosh(q / width)) - sp.log(sp.cosh((length - q) / width)))
+    return -width / length * (log_cosh((length - q) / width) - log_cosh(q / width))
+
+
+def log_cosh(u):
+    """ln cosh u written as |u| + ln(1 + exp(-2|u|)) - ln 2: the same function, but it never
+    overflows (cosh overflows a double above u ~ 710; ngspice's exp saturates at 1e99)."""
+    a = sp.Abs(u)
+    return a + sp.log(1 + sp.exp(-2 * a)) - sp.log(2)

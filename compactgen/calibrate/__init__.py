@@ -1,0 +1,1 @@
+"""Re-calibration from measured data: ingest, forward models, joint fit, fitted card, report."""

@@ -1,0 +1,231 @@
+"""Parameter recovery on the bundled synthetic data, the domain-wall model, and `compactgen fit`
+end to end: the fitted card is valid, carries uncertainties and provenance, builds, and the
+input card is never overwritten."""
+from __future__ import annotations
+
+import hashlib
+import math
+import tomllib
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from compactgen.build import build_files
+from compactgen.calibrate.commands import demo_data_files, run_fit
+from compactgen.calibrate.data import read_all, read_dataset
+from compactgen.calibrate.models import nuisance_from
+from compactgen.calibrate.runner import fit_card, fit_wall_data
+from compactgen.calibrate.synthetic import TRUTH_WALL, make_wall_data
+from compactgen.calibrate.wall import wall_specs
+from compactgen.card import load_card
+from compactgen.cli import main
+from compactgen.errors import DataError, InputError
+
+EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
+DEMO = EXAMPLES / "pmtj35_demo.toml"
+TRUTH = EXAMPLES / "data" / "truth_pmtj35.toml"
+
+
+@pytest.fixture(scope="module")
+def example_fit():
+    return fit_card(load_card(DEMO), read_all(demo_data_files()))
+
+
+def test_recovers_the_truth_from_the_example_data(example_fit):
+    """Every free parameter of the joint fit (R-V, two R-H sweep rates, switching counts) lies within two
+    standard errors of the synthetic truth; starting values are the (different) demo card's."""
+    truth = load_card(TRUTH)
+    tv = {**truth.values, **nuisance_from(truth)}
+    cf = example_fit
+    assert cf.outcome.success
+    assert set(cf.free) == {"ra", "tmr0", "v_half", "ki", "ms", "alpha", "eta", "attempt_time",
+                            "activation_exponent", "offset_field"}
+    for n in cf.free:
+        se = cf.stderr[n]
+        assert math.isfinite(se) and se > 0
+        assert abs(cf.values[n] - tv[n]) <= 2 * se, (n, cf.values[n], tv[n], se)
+    # the demo card starts far away: most parameters start more than 2 s.e. from the truth
+    assert sum(abs(cf.start[n] - tv[n]) > 2 * cf.stderr[n] for n in cf.free) >= 5
+    # derived figures agree with the truth card's own figures within 2 s.e.
+    from compactgen.reference import figures
+
+    tf = figures(truth.ir())
+    assert abs(cf.figures["delta"][1] - tf["delta"]) <= 2 * cf.figures["delta"][2]
+    assert abs(cf.figures["i_c0"][1] - tf["i_c0"]) <= 2 * cf.figures["i_c0"][2]
+    # ki and ms are reported as strongly correlated (Delta ~ Ms H_k,eff V): the fit says so
+    assert any("ki and ms" in w for w in cf.outcome.warnings)
+
+
+def test_fit_command_writes_a_valid_card_with_provenance(example_fit, tmp_path):
+    out = tmp_path / "fitted.toml"
+    report = tmp_path / "report.html"
+    data = demo_data_files()
+    rc = main(["fit", str(DEMO), *map(str, data), "-o", str(out), "--report", str(report), "--truth", str(TRUTH),
+               "--name", "pmtj35_fit"])
+    assert rc == 0
+    card = load_card(out)
+    assert card.name == "pmtj35_fit" and card.kind == "stt-mtj"
+    doc = tomllib.loads(out.read_text())
+    prov = doc["provenance"]
+    assert prov["tool"].startswith("compactgen ")
+    assert {d["sha256"] for d in prov["data"]} == {hashlib.sha256(p.read_bytes()).hexdigest() for p in data}
+    assert set(prov["free"]) == set(example_fit.free)
+    assert set(prov["nuisance"]) == {"attempt_time", "activation_exponent", "offset_field"}
+    assert set(card.uncertainty) == {"ra", "tmr0", "v_half", "ki", "ms", "alpha", "eta"}
+    for n, se in card.uncertainty.items():
+        assert se == pytest.approx(example_fit.stderr[n], rel=1e-9)
+        assert card.values[n] == pytest.approx(example_fit.values[n], rel=1e-9)
+    # the fitted card builds (Verilog-A, ngspice library, datasheet) and differs from the input
+    files = build_files(card)
+    assert "module pmtj35_fit" in files["pmtj35_fit.va"]
+    assert card.values["ra"] != load_card(DEMO).values["ra"]
+    html = report.read_text()
+    assert "within 2 s.e." in html and html.count("data:image/png;base64") >= 5
+
+
+def test_fit_never_overwrites_its_input(tmp_path):
+    src = tmp_path / "card.toml"
+    src.write_text(DEMO.read_text())
+    before = src.read_bytes()
+    rv = str(EXAMPLES / "data" / "rv_bias.csv")
+    assert main(["fit", str(src), rv, "-o", str(src)]) == InputError.exit_status
+    assert main(["fit", str(src), rv, "-o", str(tmp_path / "." / "card.toml")]) == InputError.exit_status
+    assert src.read_bytes() == before
+    out = tmp_path / "other.toml"
+    out.write_text("keep me")
+    with pytest.raises(InputError, match="exists already"):
+        run_fit(src, [rv], out)
+    assert out.read_text() == "keep me"
+    assert main(["fit", str(src), rv, "-o", str(out), "--force"]) == 0
+    assert load_card(out).values["ra"] == pytest.approx(4.4e-12, rel=1e-3)
+
+
+def test_free_and_fix_choices(tmp_path):
+    card = load_card(DEMO)
+    rv = read_dataset(EXAMPLES / "data" / "rv_bias.csv")
+    cf = fit_card(card, [rv], fix=["v_half"])
+    assert cf.free == ["ra", "tmr0"] and cf.values["v_half"] == card.values["v_half"]
+    assert any("v_half fixed by request" in n for n in cf.fixed_notes)
+    with pytest.raises(InputError, match="unknown parameter 'rho'"):
+        fit_card(card, [rv], free=["rho"])
+    with pytest.raises(InputError, match="diameter cannot be fitted"):
+        fit_card(card, [rv], free=["diameter"])
+
+
+def test_wall_velocity_recovery(tmp_path):
+    """Rigid-wall steady state (PHYSICS 6.3) fitted to synthetic velocities versus current density and
+    versus field: D, theta_SH and alpha come back within two standard errors, from a distant start."""
+    files = make_wall_data(tmp_path, seed=11)
+    start = dict(TRUTH_WALL, d_dmi=0.5e-3, theta_sh=0.2, alpha=0.4)
+    out = fit_wall_data(read_all(files), start, ["d_dmi", "theta_sh", "alpha"])
+    assert out.success
+    for n in ("d_dmi", "theta_sh", "alpha"):
+        assert abs(out.values[n] - TRUTH_WALL[n]) <= 2 * out.stderr[n], (n, out.values[n], out.stderr[n])
+        assert out.stderr[n] < 0.05 * abs(TRUTH_WALL[n])
+    # a device kind with its own parameter names maps them
+    names = {"d_dmi": "dmi", "theta_sh": "spin_hall_angle"}
+    specs = {names.get(k, k): s for k, s in wall_specs().items()}
+    vals = {names.get(k, k): v for k, v in start.items()}
+    out2 = fit_wall_data(read_all(files), vals, ["dmi", "spin_hall_angle", "alpha"], specs=specs, names=names)
+    assert out2.values["dmi"] == pytest.approx(out.values["d_dmi"], rel=1e-6)
+    assert np.isfinite(out2.stderr["spin_hall_angle"])
+
+
+def _rewrite(src: Path, dst: Path, header: str, rows, meta_extra: str = "") -> Path:
+    meta = [ln for ln in src.read_text().splitlines() if ln.startswith("#")]
+    dst.write_text("\n".join(meta) + ("\n" + meta_extra if meta_extra else "") + "\n" + header + "\n"
+                   + "\n".join(rows) + "\n")
+    return dst
+
+
+def test_other_forms_of_the_same_measurements(tmp_path):
+    """I-V and TMR-V files made from the R-V data, an R-H file described by a hold time, and switching
+    pulses given as voltages: each form fits to the same parameters as the original."""
+    card = load_card(DEMO)
+    rv = read_dataset(EXAMPLES / "data" / "rv_bias.csv")
+    v, r, st = rv.columns["voltage"], rv.columns["resistance"], rv.columns["state"]
+    ref = fit_card(card, [rv])
+    iv = _rewrite(rv.path, tmp_path / "iv.csv", "voltage [V],current [uA],state",
+                  [f"{a:.3f},{1e6 * a / b:.6g},{s}" for a, b, s in zip(v, r, st)])
+    cf = fit_card(card, [read_dataset(iv)])
+    for n in ("ra", "tmr0", "v_half"):  # same data, another estimator: agree within its standard error
+        assert abs(cf.values[n] - ref.values[n]) < 2 * cf.stderr[n], n
+    p_mask, ap_mask = st == "P", st == "AP"
+    tmr = r[ap_mask] / r[p_mask] - 1  # rows are in the same voltage order for both states
+    tv = _rewrite(rv.path, tmp_path / "tmr.csv", "voltage [V],tmr [%]",
+                  [f"{a:.3f},{100 * t:.6g}" for a, t in zip(v[p_mask], tmr)])
+    cf = fit_card(card, [read_dataset(tv)])
+    assert cf.free == ["tmr0", "v_half"]
+    for n in cf.free:
+        assert abs(cf.values[n] - ref.values[n]) < 2 * cf.stderr[n], n
+    # R-H loops stepped with a hold time instead of a sweep rate: a different switching-field law, still fits
+    rh = EXAMPLES / "data" / "rh_loops_slow.csv"
+    text = rh.read_text().replace("# sweep_rate: 0.01 T/s", "# hold_time: 0.3 s")
+    (tmp_path / "rh_hold.csv").write_text(text)
+    cf = fit_card(card, [read_dataset(tmp_path / "rh_hold.csv")])
+    assert cf.outcome.success and {"ki", "offset_field"} <= set(cf.free)
+    assert "hold time" in cf.blocks[1].info["how"]
+
+
+def test_switching_pulses_given_as_voltages(tmp_path):
+    """Voltage amplitudes are turned into currents with the junction conductance of the starting state;
+    a file written in volts fits to the same switching parameters as the same pulses in amperes."""
+    from scipy.optimize import brentq
+
+    from compactgen.calibrate.models import stt_functions
+
+    truth = load_card(TRUTH)
+    fn = stt_functions(truth)
+    a = fn.args(truth.values)
+    sw = read_dataset(EXAMPLES / "data" / "switching.csv")
+    rows = []
+    for w, cur, d, n, k in zip(sw.columns["pulse_width"], sw.columns["current"], sw.columns["direction"],
+                               sw.columns["attempts"], sw.columns["switched"]):
+        mz0 = 1.0 if d == "P->AP" else -1.0
+        volt = brentq(lambda vv: vv * fn.g(*a, vv, mz0) - cur, -3 * np.sign(-cur) * 0 - 3.0, 3.0, xtol=1e-14)
+        rows.append(f"{w * 1e9:.6g},{volt:.9g},{d},{int(n)},{int(k)}")
+    volts = _rewrite(sw.path, tmp_path / "switching_volts.csv",
+                     "pulse_width [ns],voltage [V],direction,attempts,switched", rows)
+    free = ["eta", "alpha", "attempt_time", "activation_exponent"]
+    by_current = fit_card(truth, [sw], free=free)
+    by_voltage = fit_card(truth, [read_dataset(volts)], free=free)
+    for n in free:
+        assert by_voltage.values[n] == pytest.approx(by_current.values[n], rel=1e-5)
+
+
+def test_geometry_and_temperature_come_from_the_data(tmp_path):
+    """The data's diameter and temperature become the fitted card's (demag_nz recomputed); files that
+    disagree on them are refused: a card is one device at one temperature."""
+    card = load_card(DEMO)
+    rv = EXAMPLES / "data" / "rv_bias.csv"
+    other = tmp_path / "rv_40nm.csv"
+    other.write_text(rv.read_text().replace("# diameter: 35 nm", "# diameter: 40 nm")
+                     .replace("# temperature: 27 degC", "# temperature: 85 degC"))
+    cf = fit_card(card, [read_dataset(other)])
+    assert cf.values["diameter"] == pytest.approx(40e-9, rel=1e-12)
+    assert cf.values["tnom"] == pytest.approx(358.15, rel=1e-12)
+    assert cf.values["demag_nz"] != pytest.approx(card.values["demag_nz"], rel=1e-3)
+    assert any("diameter set from the data" in n for n in cf.fixed_notes)
+    assert cf.values["ra"] == pytest.approx(4.4e-12 * (40 / 35) ** 2, rel=2e-3)  # same resistances, larger area
+    with pytest.raises(DataError, match="rv_40nm.csv: diameter .* differs"):
+        fit_card(card, [read_dataset(rv), read_dataset(other)])
+    hot = tmp_path / "switching_hot.csv"
+    hot.write_text((EXAMPLES / "data" / "switching.csv").read_text().replace("27 degC", "85 degC"))
+    with pytest.raises(DataError, match="switching_hot.csv: temperature .* differs"):
+        fit_card(card, [read_dataset(EXAMPLES / "data" / "rh_loops_slow.csv"), read_dataset(hot)])
+
+
+def test_points_near_the_critical_current_are_flagged(tmp_path):
+    truth = load_card(TRUTH)
+    from compactgen.calibrate.models import stt_functions
+
+    fn = stt_functions(truth)
+    ic0 = fn.i_c0(*fn.args(truth.values))
+    rows = [f"{w},{-1e6 * ic0 * i:.4f},AP->P,200,{k}" for w, i, k in
+            ((100, 0.6, 20), (1000, 0.6, 150), (10, 0.75, 100), (5, 1.0, 120), (3, 2.0, 100), (2, 2.0, 30))]
+    p = tmp_path / "near.csv"
+    p.write_text("# diameter: 35 nm\n# temperature: 27 degC\n# polarity: bottom-to-top\n"
+                 "pulse_width [ns],current [uA],direction,attempts,switched\n" + "\n".join(rows) + "\n")
+    cf = fit_card(truth, [read_dataset(p)], free=["activation_exponent"])  # I_c0 stays the truth's
+    assert any("within 10 % of the fitted I_c0" in w for w in cf.outcome.warnings)
