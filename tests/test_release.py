@@ -23,7 +23,7 @@ from compactgen.errors import InputError, ReleaseError
 from compactgen.release import bundle as bundle_mod
 from compactgen.release.bundle import (MANIFEST, VOLATILE, ReleaseRefused, check_bundle, interface_record,
                                        load_bundle, manifest_text, seal)
-from compactgen.release.commands import compare_dirs, demo_edited_card, make_release
+from compactgen.release.commands import compare_dirs, demo_edited_card, make_release, renamed_card
 from compactgen.release.compare import band_for, compare_curve_tables, compare_interface, fitted_names
 from compactgen.release.curves import CurveTable, read_csv
 from compactgen.release.semver import parse_version
@@ -169,6 +169,16 @@ def test_demo_card_edit(tmp_path):
     assert v2.values["ra"] == pytest.approx(1.1 * v1.values["ra"], rel=1e-12)
     assert v2.values["tmr0"] == 1.42
     assert {k for k in v1.values if v1.values[k] != v2.values[k]} == {"ra", "tmr0"}
+
+
+def test_renamed_card_keeps_values_uncertainty_and_provenance(tmp_path):
+    src = tmp_path / "fitted.toml"
+    src.write_text(EXAMPLE.read_text().replace('name = "pmtj35_demo"', 'name = "pmtj35_fit"')
+                   + '\n[uncertainty]\nra = "0.01 ohm*um^2"\n\n[provenance]\nfree = ["ra"]\n')
+    card = load_card(renamed_card(src, "pmtj35_demo", tmp_path / "renamed.toml"))
+    fitted = load_card(src)
+    assert card.name == "pmtj35_demo" and card.values == fitted.values
+    assert card.uncertainty == fitted.uncertainty and card.provenance == {"free": ["ra"]}
 
 
 # ---- releases (simulators) ----------------------------------------------------------------------

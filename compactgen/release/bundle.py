@@ -205,14 +205,18 @@ def data_hashes(provenance: dict, prefix: str = "") -> dict[str, str]:
 
 
 def stimulus_record(bench) -> dict:
-    from ..benches import Pulse
+    from ..benches import Dc, Pulse, Pwl
 
     drives = {}
     for term, w in sorted(bench.drives.items()):
         if isinstance(w, Pulse):
             drives[term] = {"pulse": {k: getattr(w, k) for k in ("v0", "v1", "delay", "rise", "fall", "width")}}
-        else:
+        elif isinstance(w, Pwl):
+            drives[term] = {"pwl": [list(p) for p in w.points]}
+        elif isinstance(w, Dc):
             drives[term] = {"dc": w.level}
+        else:
+            raise TypeError(f"bench {bench.name}: no release record for a {type(w).__name__} stimulus")
     rec = {"analysis": bench.analysis, "drives": drives, "instance": dict(sorted(bench.instance.items()))}
     if bench.analysis == "dc":
         rec["sweep"] = list(bench.sweep)

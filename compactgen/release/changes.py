@@ -57,6 +57,15 @@ def _by_error(rows):
     return sorted(rows, key=lambda r: -float(f"{r.error:.6g}"))
 
 
+def card_value_text(text: str, digits: int) -> str:
+    """A card value ("1.14208973367 mJ/m^2") to ``digits`` significant digits ("1.142 mJ/m^2")."""
+    number, sep, unit = text.partition(" ")
+    try:
+        return f"{float(number):.{digits}g}{sep}{unit}"
+    except ValueError:
+        return text
+
+
 @dataclass
 class Section:
     title: str
@@ -88,7 +97,8 @@ def summary_section(c: Comparison) -> Section:
         origins[p.origin] = origins.get(p.origin, 0) + 1
     rows.append(["parameters", f"{len(c.params)} of {c.n_params} changed"
                  + (f" ({', '.join(f'{n} {o}' for o, n in origins.items())})" if origins else ""),
-                 _more([f"{p.name} {p.old_text} -> {p.new_text} ({pct(p.rel)}, {p.origin})" for p in c.params])])
+                 _more([f"{p.name} {card_value_text(p.old_text, 4)} -> {card_value_text(p.new_text, 4)} "
+                        f"({pct(p.rel)}, {p.origin})" for p in c.params])])
     bad.append(False)
     for label, group in (("key figures", c.figures), ("bench figures", c.metrics)):
         out = [r for r in group if not r.ok]
@@ -157,7 +167,7 @@ def sections(c: Comparison) -> list[Section]:
                       "error), hand edit (typed in a card), computed (derived from other parameters), kind "
                       "default (neither card sets it; the device kind's default changed).")
         s.headers = ["parameter", "old", "new", "change", "from", "change / std. error"]
-        s.rows = [[p.name, p.old_text, p.new_text, pct(p.rel), p.origin,
+        s.rows = [[p.name, card_value_text(p.old_text, 6), card_value_text(p.new_text, 6), pct(p.rel), p.origin,
                    "—" if p.sigma is None else f"{p.sigma:+.2g}"] for p in c.params]
         s.bad = [False] * len(c.params)
     else:
@@ -271,7 +281,8 @@ def _series(table, spec: str, source: str = "reference"):
     if kind == "current":
         return xs, table.values(f"{source}:current_{name}") * 1e6, xlabel, f"I({name}) [uA]"
     if kind == "voltage":
-        return xs, table.values(f"voltage_{name}"), xlabel, f"V({name}) [V]"
+        col = f"voltage_{name}" if f"voltage_{name}" in table.columns else f"{source}:voltage_{name}"
+        return xs, table.values(col), xlabel, f"V({name}) [V]"
     raise ValueError(f"unknown plot quantity {spec!r}")
 
 

@@ -188,47 +188,73 @@ def cmd_check_release(args) -> int:
 
 
 # ---- demo ---------------------------------------------------------------------------------------
+DEMO_DEVICE = "pmtj35_demo"  # the example device the demo releases
+DEMO_FIT = "pmtj35_fit"  # its re-fit to the bundled synthetic data (compactgen.calibrate demo step)
+DEMO_ACCEPT_FIT = ("demo scenario: re-fit of the example device to the bundled synthetic measurements; the "
+                   "parameter and figure changes are the intended result of the fit")
 DEMO_ACCEPT = ("demo scenario: RA and TMR re-measured on a new (synthetic) wafer lot; the resistance and "
                "read-figure changes are intended")
 
 
 def demo_edited_card(src: str | Path, dst: str | Path, ra_factor: float = 1.10, tmr0: float = 1.42) -> Path:
     """A copy of a demo card with RA scaled and TMR changed, as if re-measured (invented numbers)."""
-    from ..card import card_text, load_card, parse_card
+    from ..card import load_card
 
     card = load_card(src)
-    values = dict(card.values)
-    values["ra"] = card.values["ra"] * ra_factor
-    values["tmr0"] = tmr0
-    text = card_text(card.kind, card.name, values, card.description, card.options, card.uncertainty,
-                     card.provenance, given=card.given, header=(
-                         f"DEMO CARD, edited copy of {Path(src).name}: ra x {ra_factor:g} and tmr0 = {tmr0:g}, "
-                         "as if re-measured.\nInvented values of the compactgen demo scenario, not a measured stack."))
+    values = dict(card.values, ra=card.values["ra"] * ra_factor, tmr0=tmr0)
+    return _write_card(card, values, card.name, dst, (
+        f"DEMO CARD, edited copy of {Path(src).name}: ra x {ra_factor:g} and tmr0 = {tmr0:g}, as if re-measured.\n"
+        "Invented values of the compactgen demo scenario, not a measured stack."))
+
+
+def renamed_card(src: str | Path, name: str, dst: str | Path) -> Path:
+    """A card under another model name, values, uncertainties and provenance kept: a re-fit
+    released as a new version of the device it re-fits keeps the device's module name, so
+    designers' netlists keep working."""
+    from ..card import load_card
+
+    card = load_card(src)
+    return _write_card(card, dict(card.values), name, dst, (
+        f"{Path(src).name} (model {card.name}) released under the device's model name {name}.\n"
+        "Values, [uncertainty] and [provenance] as fitted."))
+
+
+def _write_card(card, values: dict, name: str, dst: str | Path, header: str) -> Path:
+    from ..build import write_files
+    from ..card import card_text, parse_card
+
+    text = card_text(card.kind, name, values, card.description, card.options, card.uncertainty,
+                     card.provenance, given=card.given, header=header)
     dst = Path(dst)
     parse_card(text, str(dst))
-    dst.parent.mkdir(parents=True, exist_ok=True)
-    dst.write_text(text, encoding="utf-8")
+    write_files({dst.name: text}, dst.parent)
     return dst
 
 
 def _existing(card_path, version, releases: Path) -> Path | None:
-    """An intact bundle of exactly this card and version made by an earlier demo run."""
+    """An intact bundle of this version made by an earlier demo run from the same model (same
+    parameter values and interface; the card text may differ, e.g. in a fit's date)."""
     from ..card import load_card
+    from .bundle import interface_record, json_safe, parameter_record
 
     card = load_card(card_path)
     path = releases / f"{card.name}-{parse_version(version)}"
     if not path.exists():
         return None
-    if check_bundle(path).ok and load_bundle(path).manifest["card"]["sha256"] == card.sha256():
-        _say(f"{path}: released earlier from the same card; kept as it is")
-        return path
-    raise ReleaseError(f"{path}: exists from an earlier run but holds another card or does not check out; "
+    if check_bundle(path).ok:
+        m = load_bundle(path).manifest
+        ir = card.ir()
+        if (m["parameters"] == json_safe(parameter_record(card, ir))
+                and m["interface"] == json_safe(interface_record(ir))):
+            _say(f"{path}: released earlier from the same model; kept as it is")
+            return path
+    raise ReleaseError(f"{path}: exists from an earlier run but holds another model or does not check out; "
                        "releases are never overwritten: remove the demo folder or choose another")
 
 
-def demo_release(card_v1: Path, card_v2: Path, out_dir: Path, suite_v1=None) -> bool:
+def demo_release(card_v1: Path, card_v2: Path, out_dir: Path, suite_v1=None, accept: str = DEMO_ACCEPT) -> bool:
     """Release 1.0.0 of ``card_v1`` and 1.1.0 of ``card_v2`` against it (changes accepted with
-    DEMO_ACCEPT) into ``out_dir/releases``; print the comparison summary; True if all went fine."""
+    ``accept``) into ``out_dir/releases``; print the comparison summary; True if all went fine."""
     from .changes import summary_text
 
     releases = Path(out_dir) / "releases"
@@ -236,13 +262,33 @@ def demo_release(card_v1: Path, card_v2: Path, out_dir: Path, suite_v1=None) -> 
         v1 = _existing(card_v1, "1.0.0", releases) or make_release(card_v1, "1.0.0", releases, suite=suite_v1).path
         v2 = _existing(card_v2, "1.1.0", releases)
         if v2 is None:  # make_release prints the comparison summary
-            v2 = make_release(card_v2, "1.1.0", releases, against=v1, accept=DEMO_ACCEPT, progress=_say).path
-            comparison = compare_dirs(v1, v2, accept=DEMO_ACCEPT)
+            v2 = make_release(card_v2, "1.1.0", releases, against=v1, accept=accept, progress=_say).path
+            comparison = compare_dirs(v1, v2, accept=accept)
         else:
-            comparison = compare_dirs(v1, v2, accept=DEMO_ACCEPT)
+            comparison = compare_dirs(v1, v2, accept=accept)
             print(summary_text(comparison))
     except CompactgenError as exc:
         _say(f"release step failed: {exc}")
         return False
     _say(f"comparison report: {v2 / 'changes.html'} (Markdown: {v2 / 'changes.md'})")
     return comparison.passed and check_bundle(v1).ok and check_bundle(v2).ok
+
+
+def demo_release_step(out_dir: Path, runs: dict) -> bool:
+    """The release step of `compactgen demo`: ``runs`` maps model names to (card path, verify
+    result) of the cards the demo verified.  Release 1.0.0 is the example device (its verify
+    result reused); 1.1.0 is its re-fit (the fitted card under the device's name) when the fit
+    step ran, else an edited copy of the card."""
+    if DEMO_DEVICE not in runs:
+        return True
+    card_v1, result = runs[DEMO_DEVICE]
+    if not result.passed:
+        _say(f"release step skipped: {DEMO_DEVICE} fails its benches")
+        return False
+    out_dir = Path(out_dir)
+    _say(f"== releases of {DEMO_DEVICE} ==")
+    if DEMO_FIT in runs:
+        v2 = renamed_card(runs[DEMO_FIT][0], DEMO_DEVICE, out_dir / f"{DEMO_DEVICE}_refit.toml")
+        return demo_release(card_v1, v2, out_dir, suite_v1=result, accept=DEMO_ACCEPT_FIT)
+    v2 = demo_edited_card(card_v1, out_dir / f"{DEMO_DEVICE}_v2.toml")
+    return demo_release(card_v1, v2, out_dir, suite_v1=result, accept=DEMO_ACCEPT)

@@ -70,6 +70,11 @@ FIGURE_BANDS: tuple[BandRule, ...] = (
              units=("A", "A/m^2")),
     BandRule(Band("velocity", 0.05, 0.0, "a wall-velocity change of 5 % moves a timed shift by 5 %, the "
                   f"same margin as a switching time ({_CNP})"), units=("m/s",)),
+    BandRule(Band("position / length", 0.02, 1e-9, "wall positions, displacements and widths: 2 % plus 1 nm, a "
+                  f"fraction of a wall width, so a wall held by pinning near 0 is not judged on noise ({_CNP})"),
+             units=("m",)),
+    BandRule(Band("angle", 0.01, 0.01, "a wall or magnetisation angle: 1 % plus 0.01 rad, small against the "
+                  f"angles that change a torque noticeably ({_CNP})"), units=("rad",)),
     BandRule(Band("field / frequency", 0.02, 0.0, "anisotropy field and resonance frequency set stability "
                   f"and precession speed; 2 % ({_CNP})"), units=("A/m", "T", "Hz")),
     BandRule(Band("magnetisation value", 0.0, 0.02, "a final or extreme value of a unit-vector component; "
@@ -391,6 +396,9 @@ def _drive_text(d) -> str:
         return "none"
     if "dc" in d:
         return f"DC {d['dc']:.4g} V"
+    if "pwl" in d:
+        peak = max(d["pwl"], key=lambda p: abs(p[1]))
+        return f"PWL {len(d['pwl'])} corners, peak {peak[1]:.4g} V at {peak[0] * 1e9:.3g} ns"
     p = d["pulse"]
     return f"pulse {p['v1']:.4g} V x {p['width'] * 1e9:.3g} ns"
 

@@ -8,7 +8,8 @@ then numbers.
 
 The first column is the grid: time for a transient (uniform, the bench's output step), the swept
 terminal voltage for a DC sweep (the sweep points).  Terminal voltages are the stimulus and are
-written once; currents (into the device at each terminal) and states are written per source
+written once; currents (into the device at each terminal), internal-node voltages and states are
+written per source
 (reference, then each simulator), every source linearly interpolated onto the grid from its own
 points (the reference solver's dense output at 0.5 ps, the simulators' own time steps).
 """
@@ -65,10 +66,14 @@ def curve_table(ir, run, meta: dict[str, str]) -> CurveTable:
         if name != grid_name:
             cols[name] = ("V", _on_grid(ref, bench, grid, ref.voltages[t.name]))
     sources = ["reference"] + sorted(s for s in run.traces if s != "reference")  # fixed order, not finish order
+    inner = [n.name for n in getattr(ir, "nodes", [])]
     for src in sources:
         tr = run.traces[src]
         for t in ir.terminals:
             cols[f"{src}:current_{t.name}"] = ("A", _on_grid(tr, bench, grid, tr.currents[t.name]))
+        for n in inner:  # internal nodes are responses, written per source
+            if n in tr.voltages:
+                cols[f"{src}:voltage_{n}"] = ("V", _on_grid(tr, bench, grid, tr.voltages[n]))
         for s in ir.states:
             cols[f"{src}:{s.name}"] = (s.unit, _on_grid(tr, bench, grid, tr.states[s.name]))
     return CurveTable(grid_name, grid_unit, grid, cols, dict(meta))
