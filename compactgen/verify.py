@@ -20,6 +20,7 @@ from . import render
 from .benches import Bench, Dc, Pulse
 from .errors import OutOfCalibratedRange, SimulationError
 from .ir import ModelIR
+from .constants import ZERO_CELSIUS
 from .printing.base import format_number
 from .reference import ReferenceModel, Trace
 
@@ -101,7 +102,8 @@ def _context(ir: ModelIR, bench: Bench) -> dict:
     ctx = dict(bench=bench.name, title=bench.title, module=ir.name, drives=_drives(ir, bench),
                nodes=" ".join(f"n_{t.name}" for t in ir.terminals),
                instance=[(k, format_number(v)) for k, v in bench.instance.items()],
-               analysis=bench.analysis, reltol=format_number(RELTOL))
+               analysis=bench.analysis, reltol=format_number(RELTOL),
+               temp_c=None if bench.temperature is None else format_number(bench.temperature - ZERO_CELSIUS))
     if bench.analysis == "dc":
         term, a, b, step = bench.sweep
         ctx["sweep"] = dict(term=term, start=format_number(a), stop=format_number(b), step=format_number(step))
@@ -143,7 +145,8 @@ def _trace_vacask(ir: ModelIR, bench: Bench, plots: dict) -> Trace:
 
 
 def reference_trace(ir: ModelIR, bench: Bench) -> Trace:
-    model = ReferenceModel(ir, bench.instance)
+    model = ReferenceModel(ir, bench.instance, **({} if bench.temperature is None else
+                                                     {"temperature": bench.temperature}))
     if bench.analysis == "dc":
         term = bench.sweep[0]
         vs = bench.sweep_values()
