@@ -49,18 +49,17 @@ class EnsembleRun:
         return (tc[None, :] <= t[:, None]).mean(axis=1)
 
 
-def _lib_line(lib_path: str, ir: ModelIR) -> str:
-    text = Path(lib_path).read_text()
-    return f".lib {lib_path} tt" if "\n.lib tt" in text else f".include {lib_path}"
+def _lib_line(lib_path: str, ir: ModelIR, section: str = "tt") -> str:
+    return f".lib {lib_path} {section}" if "corner" in ir.params else f".include {lib_path}"
 
 
 def ngspice_ensemble_deck(ir: ModelIR, lib_path: str, instances: list[dict], current: float, t_stop: float,
-                          temperature: float, max_step: float, title: str = "") -> str:
+                          temperature: float, max_step: float, title: str = "", section: str = "tt") -> str:
     env = render.environment()
     env.loader.searchpath.append(str(render.TEMPLATE_DIR.parent / "ngspice_decks"))
     save = render.spice_wrap(".save " + " ".join(f"v(x{k['i']}.mz)" for k in instances))
     return env.get_template("ensemble.cir.j2").render(
-        title=title or ir.name, lib_line=_lib_line(lib_path, ir), instances=instances, module=ir.name,
+        title=title or ir.name, lib_line=_lib_line(lib_path, ir, section), instances=instances, module=ir.name,
         current=format_number(current), delay=format_number(0.0), rise=format_number(RISE),
         width=format_number(10 * t_stop), period=format_number(100 * t_stop), reltol=format_number(ENSEMBLE_RELTOL),
         temp_c=format_number(temperature - ZERO_CELSIUS), save_line=save, t_step=format_number(max_step),

@@ -116,7 +116,8 @@ def _context(ir: ModelIR, bench: Bench) -> dict:
 def ngspice_deck(ir: ModelIR, bench: Bench, lib_path: str) -> str:
     env = render.environment()
     env.loader.searchpath.append(str(render.TEMPLATE_DIR.parent / "ngspice_decks"))
-    return env.get_template("bench.cir.j2").render(lib_path=lib_path, **_context(ir, bench))
+    section = "tt" if "corner" in ir.params else ""  # a library with process-variation sections
+    return env.get_template("bench.cir.j2").render(lib_path=lib_path, lib_section=section, **_context(ir, bench))
 
 
 def vacask_netlist(ir: ModelIR, bench: Bench, osdi_name: str) -> str:

@@ -22,6 +22,13 @@ from .base import DeviceKind, Option, register
 from .common import (Parts, cylinder_nz, free_layer, free_layer_specs, limit_specs, macrospin_states,
                      mtj_conductance, mtj_read_specs, orientation_specs)
 from ..params import ParamSpec
+from .variation import apply_variation, variation_specs
+
+
+#: parameters with process variation: (name, direction of the slow corner, global sigma, mismatch
+#: sigma at area_ref) -- illustrative spreads, no source (devices/variation.py)
+VARIED = (("ra", +1, 0.03, 0.015), ("tmr0", -1, 0.03, 0.015), ("ki", +1, 0.01, 0.005),
+          ("alpha", +1, 0.05, 0.02), ("eta", -1, 0.03, 0.015))
 
 
 @register
@@ -41,7 +48,8 @@ class SttMtj(DeviceKind):
             ParamSpec("xi_fl", "1", 0.0, -2.0, 2.0, "field-like to damping-like torque ratio",
                       source="|xi| <~ 0.3 typical for MgO MTJs (from memory)", group="spin-transfer torque"),
         ]
-        return free_layer_specs() + mtj_read_specs() + stt + limit_specs() + orientation_specs()
+        return (free_layer_specs() + mtj_read_specs() + stt + limit_specs() + orientation_specs()
+                + variation_specs(VARIED))
 
     def derive_defaults(self, values, options, given=frozenset()):
         out = dict(values)
@@ -54,6 +62,7 @@ class SttMtj(DeviceKind):
         P = table.symbols()
         parts = Parts(P)
         area = parts.d("area_fl", geometry.disk_area(P["diameter"]), positive=True)
+        apply_variation(parts, VARIED, area)
         fl = free_layer(parts, area)
         v = sp.Symbol("v_tb", real=True)
         mz_sym = sp.Symbol("mz", real=True)
