@@ -119,3 +119,15 @@ def test_dtemp_reaches_both_simulators(ngspice, vacask):
         assert row.values[sim] == pytest.approx(r_hot, rel=1e-6)
     assert not math.isclose(r_hot, 0.1 / ReferenceModel(ir, {"state0": -1.0}, temperature=298.15)
                             .terminal_currents({"t": 0.1, "b": 0.0}, hot.initial)["t"], rel_tol=1e-3)
+
+
+def test_datasheet_states_delta_retention_and_wer():
+    from compactgen.build import build_files
+
+    md = build_files(example_card())["pmtj35_demo.md"]
+    ir = example_card().ir()
+    d25 = figures(ir, temperature=298.15)["delta"]
+    d85 = figures(ir, temperature=358.15)["delta"]
+    assert f"**{d25:.1f} at 25 degC**" in md and f"**{d85:.1f} at 85 degC**" in md
+    assert "| I/I_c0 | 2 ns | 5 ns | 10 ns | 20 ns |" in md
+    assert ".lib pmtj35_demo.lib tt" in md and "no substitute for qualification" in md
