@@ -200,14 +200,14 @@ def stt_benches(ir, values: dict[str, float]) -> list[Bench]:
         tag = f"{t_c:+.0f}C".replace("+", "p").replace("-", "m")
         metrics = [Metric(f"R at {v:+.2f} V", "ohm", dc_resistance_at("t", "b", v), 1e-3, 0.0, WHY_R)
                    for v in (-0.5, 0.1, 0.5)]
-        benches.append(Bench(f"rv_antiparallel_{tag}", f"R-V sweep, antiparallel state, at {t_c:g} degC", "dc", {},
+        benches.append(Bench(f"temp_rv_antiparallel_{tag}", f"R-V sweep, antiparallel state, at {t_c:g} degC", "dc", {},
                              metrics, instance={"state0": -1.0}, sweep=sweep, plot=("resistance",), temperature=t_k))
         model = ReferenceModel(ir, {"state0": -1.0}, temperature=t_k)
         i_c0_t = figures(ir, temperature=t_k)["i_c0"]
         v = bias_for_current(model, 2.0 * i_c0_t, -1.0)
         width = _pulse_width(model, v, delay, rise)
         benches.append(Bench(
-            f"write_to_p_2ic0_{tag}", f"AP->P write at {t_c:g} degC, 2 x I_c0(T) ({2 * i_c0_t * 1e6:.1f} uA, {v:+.3f} V)",
+            f"temp_write_to_p_2ic0_{tag}", f"AP->P write at {t_c:g} degC, 2 x I_c0(T) ({2 * i_c0_t * 1e6:.1f} uA, {v:+.3f} V)",
             "tran", {"t": Pulse(0.0, v, delay, rise, rise, width), "b": Dc(0.0)},
             [Metric("switching time", "s", switching_time("mz", delay, 1), 1e-2, 0.0, WHY_TSW),
              Metric("final m_z", "1", final_value("mz"), 0.0, 0.02, WHY_FINAL, expect=(1.0, 0.02))],
