@@ -18,7 +18,7 @@ from pathlib import Path
 
 import numpy as np
 
-from compactgen import render
+from compactgen import render, verify
 from compactgen.benches import Pulse
 from compactgen.card import load_card
 from compactgen.printing.base import format_number as fmt
@@ -26,7 +26,7 @@ from compactgen.reference import ReferenceModel
 from compactgen.sim import compile_va_cached, run_ngspice, run_vacask
 
 ROOT = Path(__file__).resolve().parent.parent
-OPTS_NG = ".options method=trap reltol=1e-6 abstol=1e-15 vntol=1e-9 chgtol=1e-22 trtol=1"
+OPTS_NG = ".options method=trap reltol=RELTOL abstol=1e-15 vntol=1e-9 chgtol=1e-22 trtol=1"  # as the harness
 
 
 def pulse_ng(p: Pulse) -> str:
@@ -38,29 +38,40 @@ def pulse_vc(p: Pulse) -> str:
             f"fall={fmt(p.fall)} width={fmt(p.width)} period={fmt(p.period)}")
 
 
-def tilts(n: int) -> list[float]:
-    """Per-instance initial cone angles so every instance follows its own trajectory."""
-    return [0.05 + 0.05 * i / max(n, 1) for i in range(n)]
+def spread(ir, n: int) -> tuple[str, list[float]]:
+    """A per-instance parameter and its values, so every instance follows its own trajectory."""
+    names = ir.params.names()
+    if "tilt0" in names:
+        return "tilt0", [0.05 + 0.05 * i / max(n, 1) for i in range(n)]
+    if "wall0" in names:
+        return "wall0", [2e-9 * i / max(n, 1) for i in range(n)]
+    return "", [0.0] * n
+
+
+def replicate(text: str, prefix: str, n: int, name: str, values: list[float]) -> str:
+    """Repeat the harness deck's device line n times, each instance with its own value of name."""
+    out = []
+    for line in text.splitlines():
+        if line.startswith(prefix):
+            head, _, rest = line.partition(" ")
+            for i, v in enumerate(values):
+                extra = f" {name}={fmt(v)}" if name else ""
+                inst = " ".join(w for w in rest.split() if not (name and w.startswith(name + "=")))
+                out.append(f"{head}{i} {inst}{extra}")
+        else:
+            out.append(line)
+    return "\n".join(out) + "\n"
 
 
 def decks(ir, bench, n: int, lib: Path):
-    pulsed = [t for t, w in bench.drives.items() if isinstance(w, Pulse)]
-    term = pulsed[0]
+    """The verify harness's own decks for ``bench`` with n device instances, and BSIM4 decks with
+    the same stimulus (first pulsed port on the gates) and the same transient settings."""
+    name, values = spread(ir, n)
+    ng = replicate(verify.ngspice_deck(ir, bench, str(lib)), "Xdut ", n, name, values)
+    vc = replicate(verify.vacask_netlist(ir, bench, f"{ir.name}.osdi"), "xdut ", n, name, values)
+    term = next(t for t, w in bench.drives.items() if isinstance(w, Pulse))
     p = bench.drives[term]
-    ports = [t.name for t in ir.terminals]
-    inst = " ".join(f"{k}={fmt(v)}" for k, v in bench.instance.items() if k != "tilt0")
-    ng = [f"* {n} x {ir.name}", f".include {lib}", f"V1 a 0 {pulse_ng(p)}"]
-    vc = ["bench", f'load "{ir.name}.osdi"', f"model dut {ir.name}", "model vsrc vsource", "ground 0",
-          f"v1 (a 0) vsrc {pulse_vc(p)}"]
-    for i, tilt in enumerate(tilts(n)):
-        nodes = " ".join("a" if t == term else "0" for t in ports)
-        ng.append(f"X{i} {nodes} {ir.name} {inst} tilt0={fmt(tilt)}")
-        vc.append(f"x{i} ({nodes}) dut {inst} tilt0={fmt(tilt)}")
     tran = (fmt(bench.t_step), fmt(bench.t_stop), fmt(bench.max_step))
-    ng += [OPTS_NG, f".tran {tran[0]} {tran[1]} 0 {tran[2]}", ".end"]
-    vc += ["control", "  abort always", '  options tran_method="trap" reltol=1e-6 tran_fbr=0.01',
-           f"  analysis tr1 tran step={tran[0]} stop={tran[1]} maxstep={tran[2]}", "endc"]
-    # BSIM4: gate on the same pulse, drain to 1 V through 10 kOhm, same settings
     b4ng = [f"* {n} x BSIM4", f"V1 a 0 {pulse_ng(p)}", "Vdd vdd 0 1", ".model nch nmos level=54"]
     b4vc = ["bsim4", 'load "bsim4v8.osdi"', 'load "resistor.osdi"', "model nch bsim4 type=1", "model vsrc vsource",
             "model res resistor", "ground 0", f"v1 (a 0) vsrc {pulse_vc(p)}", "vdd (vdd 0) vsrc dc=1"]
@@ -68,9 +79,10 @@ def decks(ir, bench, n: int, lib: Path):
         w = 1e-6 * (1 + i / max(n, 1))
         b4ng += [f"R{i} vdd d{i} 10k", f"M{i} d{i} a 0 0 nch l=100n w={fmt(w)}"]
         b4vc += [f"r{i} (vdd d{i}) res r=1e4", f"m{i} (d{i} a 0 0) nch l=1e-7 w={fmt(w)}"]
-    b4ng += [OPTS_NG, f".tran {tran[0]} {tran[1]} 0 {tran[2]}", ".end"]
-    b4vc += vc[-5:]
-    return "\n".join(ng) + "\n", "\n".join(vc) + "\n", "\n".join(b4ng) + "\n", "\n".join(b4vc) + "\n"
+    b4ng += [OPTS_NG.replace("RELTOL", fmt(verify.RELTOL)), f".tran {tran[0]} {tran[1]} 0 {tran[2]}", ".end"]
+    b4vc += ["control", "  abort always", f'  options tran_method="trap" reltol={fmt(verify.RELTOL)} tran_fbr=0.01',
+             f"  analysis tr1 tran step={tran[0]} stop={tran[1]} maxstep={tran[2]}", "endc"]
+    return ng, vc, "\n".join(b4ng) + "\n", "\n".join(b4vc) + "\n"
 
 
 def timed(fn, repeat: int):
@@ -112,8 +124,10 @@ def main() -> None:
                                                                  "resistor.osdi": b4 / "resistor.osdi"}, timeout=3600), rep)
 
                 def ref_run():
-                    for tilt in tilts(n):
-                        m = ReferenceModel(ir, {**bench.instance, "tilt0": tilt})
+                    name, values = spread(ir, n)
+                    for v in values:
+                        inst = {**bench.instance, **({name: v} if name else {})}
+                        m = ReferenceModel(ir, inst)
                         m.transient(bench.drives, bench.t_stop, rtol=1e-8, atol=1e-10)
 
                 t_ref, _ = timed(ref_run, 1)

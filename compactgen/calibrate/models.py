@@ -91,14 +91,16 @@ def stt_functions(card) -> SttFunctions:
     P = ir.params.symbols()
     names = ir.params.names()
     psyms = [P[n] for n in names]
-    full: dict = {}
+    # the data temperature becomes the card's tnom, so temperature-dependent quantities are
+    # evaluated at T = tnom
+    full: dict = {ir.temperature: P["tnom"]}
     for s, e in ir.derived:
         full[s] = sp.sympify(e).xreplace(full)
     loc: dict = {}
     for s, e in ir.locals:
         loc[s] = sp.sympify(e).xreplace(full).xreplace(loc)
     figs = {f.name: sp.sympify(f.expr).xreplace(full) for f in ir.figures}
-    by_name = {str(s): s for s in list(full) + list(loc)}
+    by_name = {str(s): s for s in list(full) + list(loc) if s != ir.temperature}
     const = ir.constants
     v = next(iter(ir.voltages))
     mz = sp.Symbol("mz", real=True)
