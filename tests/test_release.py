@@ -24,13 +24,13 @@ from compactgen.release import bundle as bundle_mod
 from compactgen.release.bundle import (MANIFEST, VOLATILE, ReleaseRefused, check_bundle, interface_record,
                                        load_bundle, manifest_text, seal)
 from compactgen.release.commands import compare_dirs, demo_edited_card, make_release, renamed_card
-from compactgen.release.compare import band_for, compare_curve_tables, compare_interface, fitted_names
+from compactgen.release.compare import _error, band_for, compare_curve_tables, compare_interface, fitted_names
 from compactgen.release.curves import CurveTable, read_csv
 from compactgen.release.semver import parse_version
 from compactgen.verify import run_suite
 
 EXAMPLE = Path(__file__).resolve().parent.parent / "examples" / "pmtj35_demo.toml"
-pytestmark = [pytest.mark.simulator]
+pytestmark = [pytest.mark.simulator, pytest.mark.xdist_group("release")]  # one worker builds the bundles once
 
 
 def _quiet(msg: str) -> None:
@@ -133,6 +133,7 @@ def test_interface_breaks_are_flagged_and_additions_are_not():
             p["default"] = -1.0
     new["parameters"].append({"name": "r_series", "unit": "ohm", "kind": "model", "default": 0.0})
     new["conventions"][2] = new["conventions"][2].replace("toward the parallel", "toward the antiparallel")
+    new["lib_sections"] = [s for s in new["lib_sections"] if s != "ss"] + ["corner_x"]
     changes = {c.item: c for c in compare_interface(base, new)}
     assert changes["port order"].breaking and changes["port order"].new == "b t"
     assert changes["parameter xi_fl"].breaking and "removed" in changes["parameter xi_fl"].new
@@ -140,6 +141,7 @@ def test_interface_breaks_are_flagged_and_additions_are_not():
     assert changes["default of instance parameter state0"].breaking
     assert changes["conventions (sign, ports, states)"].breaking
     assert not changes["parameter r_series"].breaking  # an addition leaves netlists working
+    assert changes[".lib section ss"].breaking and not changes[".lib section corner_x"].breaking
 
 
 def test_bands_come_from_one_table_with_reasons():
@@ -148,6 +150,8 @@ def test_bands_come_from_one_table_with_reasons():
     assert band_for("i_c0", "A").label == "current / threshold"
     assert band_for("tmr_read", "1").label == "TMR ratio"
     assert band_for("final m_z", "1").atol == 0.02
+    retention = band_for("retention", "s")  # log scale: a factor 2 either way is one band
+    assert retention.log and _error(1e3, 2e3, retention) == pytest.approx(1.0) == _error(1e3, 500.0, retention)
     assert all(b.band.reason for b in __import__("compactgen.release.compare", fromlist=["x"]).FIGURE_BANDS)
 
 

@@ -218,6 +218,8 @@ def stimulus_record(bench) -> dict:
         else:
             raise TypeError(f"bench {bench.name}: no release record for a {type(w).__name__} stimulus")
     rec = {"analysis": bench.analysis, "drives": drives, "instance": dict(sorted(bench.instance.items()))}
+    if getattr(bench, "temperature", None) is not None:
+        rec["temperature"] = bench.temperature
     if bench.analysis == "dc":
         rec["sweep"] = list(bench.sweep)
     else:
@@ -226,7 +228,10 @@ def stimulus_record(bench) -> dict:
 
 
 def interface_record(ir) -> dict:
-    """What a designer's netlist depends on: names, port order, parameters, conventions."""
+    """What a designer's netlist depends on: names, port order, parameters, library sections
+    (process corners), conventions."""
+    from ..render import _sections
+
     return {
         "module": ir.name,
         "kind": ir.kind,
@@ -234,6 +239,7 @@ def interface_record(ir) -> dict:
         "port_meaning": {t.name: t.desc for t in ir.terminals},
         "parameters": [{"name": s.name, "unit": s.unit, "kind": s.kind, "default": s.default} for s in ir.params],
         "outputs": [{"name": o.name, "unit": o.unit} for o in ir.outputs],
+        "lib_sections": [s["name"] for s in _sections(ir)],
         "conventions": list(ir.conventions),
     }
 

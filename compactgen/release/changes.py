@@ -13,6 +13,7 @@ from .compare import Band, Comparison, CurveRow
 _PREFIX = ((1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"), (1e-9, "n"),
            (1e-12, "p"), (1e-15, "f"))
 _ENG_UNITS = ("s", "A", "V", "ohm", "Hz", "W")
+YEAR = 365.25 * 86400.0  # [s], Julian year
 #: changes below this (relative, or in units of the band) are rounding noise of the solvers and
 #: are printed as such rather than as digits that would differ from machine to machine
 NOISE = 1e-6
@@ -24,6 +25,8 @@ def value_text(x: float | None, unit: str) -> str:
         return "—"
     if math.isinf(x):
         return "inf"
+    if unit == "s" and abs(x) >= 1e3:  # retention-like times: seconds and years, no giga-seconds
+        return f"{x:.4g} s ({x / YEAR:.3g} years)" if abs(x) >= YEAR else f"{x:.4g} s"
     if unit in _ENG_UNITS and x != 0:
         for f, p in _PREFIX:
             if abs(x) >= f * 0.9995:

@@ -30,8 +30,11 @@ class Band:
     atol: float
     reason: str
     peak: float = 0.0  # curves: add peak * max|old| over the curve to atol
+    log: bool = False  # compare |ln(new/old)| with ln(1 + rtol): for quantities exponential in a barrier
 
     def text(self, unit: str = "") -> str:
+        if self.log:
+            return f"factor {1 + self.rtol:g}"
         parts = []
         if self.rtol:
             parts.append(f"{self.rtol * 100:g} %")
@@ -61,6 +64,9 @@ FIGURE_BANDS: tuple[BandRule, ...] = (
                   f"below the spread a read circuit is designed for ({_CNP})"), name=r"(^|_)tmr"),
     BandRule(Band("thermal stability", 0.02, 0.0, "retention time grows as exp(Delta) (Neel-Brown): 2 % of "
                   "Delta = 60 is 1.2, already a factor 3.3 in retention time"), units=("1",), name=r"^delta$"),
+    BandRule(Band("retention / dwell time", 1.0, 0.0, "thermally activated times grow as exp(Delta): compared "
+                  "on a log scale, a factor 2 (Delta changed by ln 2 = 0.69) is the smallest step that matters "
+                  f"for a retention budget ({_CNP})", log=True), units=("s",), name=r"retention|dwell"),
     BandRule(Band("resistance", 0.01, 0.0, "read circuits are sized on R_P and R_AP directly; 1 % is below "
                   f"the device-to-device spread of RA ({_CNP})"), units=("ohm",)),
     BandRule(Band("time", 0.05, 0.0, "write-pulse margins are set in tens of percent; a 5 % shift in a "
@@ -113,6 +119,8 @@ def _error(old, new, band: Band) -> float:
     d = abs(n - o)
     if d == 0.0:
         return 0.0
+    if band.log:
+        return abs(math.log(n / o)) / math.log(1 + band.rtol) if n > 0 and o > 0 else math.inf
     scale = band.atol + band.rtol * abs(o)
     return d / scale if scale > 0 else math.inf
 
@@ -363,6 +371,14 @@ def compare_interface(old: dict, new: dict) -> list[InterfaceChange]:
     for n in ob:
         if n not in oa:
             out.append(InterfaceChange(f"output {n}", "—", f"added [{ob[n]['unit']}]", False))
+    sa, sb = old.get("lib_sections", []), new.get("lib_sections", [])
+    for n in sa:
+        if n not in sb:
+            out.append(InterfaceChange(f".lib section {n}", "present", "removed", True,
+                                       f"netlists that load the library with section {n} fail"))
+    for n in sb:
+        if n not in sa:
+            out.append(InterfaceChange(f".lib section {n}", "—", "added", False, "existing netlists are unaffected"))
     if old["conventions"] != new["conventions"]:
         gone = [c for c in old["conventions"] if c not in new["conventions"]]
         came = [c for c in new["conventions"] if c not in old["conventions"]]
