@@ -126,7 +126,7 @@ def summary_section(c: Comparison) -> Section:
         verdict = f"all {judged} judged benches within band" + (f" ({same} identical)" if same else "")
         det = []
     if shown:
-        det.append(f"{len(shown)} not judged: stimulus follows the model and changed (see bench figures)")
+        det.insert(0, f"{len(shown)} not judged: stimulus follows the model and changed (see bench figures)")
     rows.append(["curves", verdict, _more(det, 4)])
     bad.append(bool(out))
     rows.append(["overall", "PASS" if c.clean else ("CHANGED, ACCEPTED" if c.accepted else "FAIL"),
@@ -139,6 +139,8 @@ def change_text(r) -> str:
     """Relative change, or the absolute one for figures with an absolute band (values near 0 or +-1)."""
     if r.old is None or r.new is None:
         return "—"
+    if r.band.log and r.old > 0 and r.new > 0 and r.new != r.old:
+        return f"x {r.new / r.old:.3g}"
     if r.band.rtol == 0 or r.rel is None:
         d = r.new - r.old
         if d == 0:
