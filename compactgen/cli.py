@@ -161,6 +161,7 @@ def cmd_demo(args) -> int:
     out = Path(args.output)
     out.mkdir(parents=True, exist_ok=True)
     ok = True
+    thermal_done = False
     for src in sorted(EXAMPLES.glob("*_demo.toml")) + _fitted_demo(out):
         card_path = out / src.name
         shutil.copyfile(src, card_path)
@@ -172,7 +173,8 @@ def cmd_demo(args) -> int:
         say(f"built {out / card.name}")
         result = verify_card(card, report=str(out / card.name / "verify.html"), title=f"{card.name}: verification")
         ok &= result.passed
-        if card.kind == "stt-mtj" and os.environ.get("COMPACTGEN_DEMO_THERMAL", "1") != "0":
+        if card.kind == "stt-mtj" and not thermal_done and os.environ.get("COMPACTGEN_DEMO_THERMAL", "1") != "0":
+            thermal_done = True  # once, for the bundled device
             from .thermal_report import demo_thermal
 
             say(f"thermal demo (switching probability, retention, corners): set COMPACTGEN_DEMO_THERMAL=0 to skip")
