@@ -15,6 +15,9 @@ Switching probability, per pulse (PHYSICS 4.2, 4.3), with i = |I|/I_c0:
 Neither form holds close to i = 1; data there are fitted but flagged in the report.
 Voltage pulses use the current of the starting state, I = V g(V, m_z0) (the change of
 current while the layer turns is neglected).
+
+The dw-mtj wall-velocity model (``wall_block``) is the steady state of the card's own wall
+equations, from its ModelIR through ``calibrate.wall``.
 """
 from __future__ import annotations
 
@@ -396,9 +399,9 @@ def _switching_block(fn: SttFunctions, ds: Dataset) -> Block:
 
 
 # ---------------------------------------------------------------------------------------------
-def wall_block(ds: Dataset, names: dict[str, str] | None = None) -> Block:
-    """Wall velocity versus current density (and field) from the rigid-wall steady state
-    (``calibrate.wall``); ``names`` maps the model's parameter names to the card's."""
+def wall_block(fn, ds: Dataset) -> Block:
+    """Wall velocity versus current density (and field) of a dw-mtj card: the steady state of the
+    card's own wall equations (``calibrate.wall``, pinning off); ``fn`` from ``wall.wall_functions``."""
     from .wall import steady_state
 
     j = ds.columns["current_density"]
@@ -411,7 +414,7 @@ def wall_block(ds: Dataset, names: dict[str, str] | None = None) -> Block:
     sigma = 0.05 * np.maximum(np.abs(v), floor)  # relative scatter with a floor; scale estimated
 
     def predict(values):
-        return steady_state(values, j, hz, q=q, names=names)[0]
+        return steady_state(fn, values, j, hz, q=q)[0]
 
     along_field = bool(np.ptp(hz) > 0 and np.ptp(j) == 0)
     x = hz if along_field else j
@@ -419,13 +422,12 @@ def wall_block(ds: Dataset, names: dict[str, str] | None = None) -> Block:
 
     def curves(values):
         if along_field:
-            return {"fit": (xd, steady_state(values, j[0], xd, q=q, names=names)[0])}
+            return {"fit": (xd, steady_state(fn, values, j[0], xd, q=q)[0])}
         if np.ptp(hz) == 0:
-            return {"fit": (xd, steady_state(values, xd, hz[0], q=q, names=names)[0])}
+            return {"fit": (xd, steady_state(fn, values, xd, hz[0], q=q)[0])}
         return {}
 
-    uses = tuple((names or {}).get(n, n) for n in ("d_dmi", "theta_sh", "alpha", "a_ex", "ki", "ms"))
-    return Block(f"{ds.name}: wall velocity", "gaussian", predict, v, sigma=sigma, uses=uses,
-                 info={"dataset": ds, "what": "wall velocity", "x": x, "field": hz, "q": q, "curves": curves,
-                       "xlabel": "field [A/m]" if along_field else "current density [A/m^2]",
+    return Block(f"{ds.name}: wall velocity", "gaussian", predict, v, sigma=sigma, uses=fn.uses,
+                 info={"dataset": ds, "what": "wall velocity", "model": fn, "x": x, "field": hz, "current_density": j,
+                       "q": q, "curves": curves, "xlabel": "field [A/m]" if along_field else "current density [A/m^2]",
                        "ylabel": "wall velocity [m/s]", "group": np.full(v.size, "data")})

@@ -11,7 +11,7 @@ from pathlib import Path
 from .. import __version__
 from ..card import card_text, parse_card
 from ..errors import InputError
-from .models import NUISANCE_SPECS, STT_FITTABLE
+from .models import NUISANCE_SPECS
 from .runner import CardFit
 
 METHOD = ("joint maximum likelihood (scipy.optimize.least_squares, trust-region reflective): Gaussian "
@@ -33,7 +33,7 @@ def provenance(cf: CardFit, date: str | None = None) -> dict:
         "fitted_from_sha256": card.sha256(),
         "method": METHOD,
         "free": list(cf.free),
-        "kept": [n for n in (*STT_FITTABLE, *NUISANCE_SPECS) if n not in cf.free],
+        "kept": [n for n in cf.fittable if n not in cf.free],
         "model_evaluations": int(cf.nfev),
         "converged": bool(o.success),
         "notes": list(cf.fixed_notes),
@@ -59,7 +59,7 @@ def fitted_card_text(cf: CardFit, name: str | None = None, date: str | None = No
            if n in card.values and math.isfinite(cf.outcome.stderr.get(n, math.nan))}
     given = set(card.given) | {n for n in cf.free if n in card.values}
     for key in ("diameter", "tnom"):
-        if cf.card_values[key] != card.values[key] or key in card.given:
+        if key in card.values and cf.card_values[key] != card.values[key] or key in card.given:
             given.add(key)
     header = (f"FITTED by `compactgen fit` from {card.path.name if card.path else card.name} and "
               f"{len(cf.datasets)} data file(s) ({', '.join(ds.name for ds in cf.datasets)}).\n"
