@@ -191,7 +191,7 @@ def test_dw_fit_command(dw_fit_result, tmp_path):
     prov = tomllib.loads(out.read_text())["provenance"]
     assert prov["free"] == ["dmi", "theta_sh", "alpha"] and prov["kept"] == ["a_ex", "ki", "ms", "xi_sot"]
     assert {d["sha256"] for d in prov["data"]} == {hashlib.sha256(p.read_bytes()).hexdigest() for p in files}
-    assert {d["measurement"] for d in prov["data"]} == {"wall-velocity"}
+    assert {d["measurement"] for d in prov["data"]} == {"wall-velocity"} and "nuisance" not in prov
     html = report.read_text()
     assert "within 2 s.e." in html and html.count("data:image/png;base64") >= 3
     assert "module dwtrack_demo_fit" in build_files(card)["dwtrack_demo_fit.va"]

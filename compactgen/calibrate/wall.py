@@ -36,6 +36,7 @@ import numpy as np
 import sympy as sp
 
 from ..errors import InputError
+from .models import expand_ir
 
 _GRID = 720  # points per turn of the wall angle
 #: IR names this model relies on (devices/dw_mtj.py)
@@ -65,20 +66,8 @@ def wall_functions(ir) -> WallFunctions:
     if ir.kind != "dw-mtj":
         raise InputError(f"the wall-velocity model needs a dw-mtj model, not {ir.kind}")
     P = ir.params.symbols()
-    names = ir.params.names()
-    psyms = [P[n] for n in names]
-    full: dict = {}
-    for s, e in ir.derived:
-        full[s] = sp.sympify(e).xreplace(full)
     j, hz = sp.symbols("j_data h_z_data", real=True)
-    loc: dict = {}
-    for s, e in ir.locals:
-        if str(s) == _CURRENT:
-            loc[s] = j
-        elif str(s) == _PINNING:
-            loc[s] = sp.Integer(0)
-        else:
-            loc[s] = sp.sympify(e).xreplace(full).xreplace(loc)
+    names, psyms, full, loc = expand_ir(ir, {_CURRENT: j, _PINNING: sp.Integer(0)})
     seen = {str(s) for s in loc}
     if not {_CURRENT, _PINNING} <= seen or _FIELD not in P:
         raise InputError(f"the dw-mtj model has no {_CURRENT}, {_PINNING} or {_FIELD}: calibrate.wall needs updating")
