@@ -116,6 +116,7 @@ class Bench:
     t_step: float = 0.0
     max_step: float = 0.0
     plot: tuple[str, ...] = ()  # quantities to plot: "state:mz", "current:t", "resistance"
+    temperature: float | None = None  # circuit temperature [K]; None: the simulators' default 27 degC
 
     def sweep_values(self) -> np.ndarray:
         term, a, b, step = self.sweep

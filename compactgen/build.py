@@ -55,6 +55,9 @@ def datasheet(card: Card, ir: ModelIR, figs: dict[str, float]) -> str:
         locals=[dict(lhs=lat(k), rhs=lat(e)) for k, e in ir.locals],
     )
     ctx["states"] = [dict(name=s.name, unit=s.unit, desc=s.desc, latex=lat(s.symbol), rhs=lat(s.rhs)) for s in ir.states]
+    from .thermal_report import thermal_context
+
+    ctx["thermal"] = thermal_context(ir)
     return render.environment().get_template("datasheet/model.md.j2").render(**ctx)
 
 

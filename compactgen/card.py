@@ -118,6 +118,9 @@ def parse_card(text: str, where: str = "<card>", path: Path | None = None) -> Ca
         if k not in table:
             raise CardError(f"{where}: [uncertainty] {k}: not a parameter of {kind.key}")
         uncertainty[k] = to_si(v, table[k].unit, where=f"{where}: [uncertainty] {k}")
+    from .devices.variation import sigmas_from_uncertainty
+
+    values = sigmas_from_uncertainty(values, uncertainty, given)
     card = Card(kind.key, name, str(dev.get("description", "")), options, values, given, path, text,
                 uncertainty, dict(doc.get("provenance", {})))
     try:

@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import argparse
+import os
 import shutil
 import sys
 from pathlib import Path
@@ -171,6 +172,11 @@ def cmd_demo(args) -> int:
         say(f"built {out / card.name}")
         result = verify_card(card, report=str(out / card.name / "verify.html"), title=f"{card.name}: verification")
         ok &= result.passed
+        if card.kind == "stt-mtj" and os.environ.get("COMPACTGEN_DEMO_THERMAL", "1") != "0":
+            from .thermal_report import demo_thermal
+
+            say(f"thermal demo (switching probability, retention, corners): set COMPACTGEN_DEMO_THERMAL=0 to skip")
+            say(f"wrote {demo_thermal(card_path, out / card.name, progress=say)}")
     say(f"demo finished in {out}: {'every bench passed' if ok else 'SOME BENCHES FAILED'}")
     return 0 if ok else VerificationFailed.exit_status
 

@@ -62,9 +62,18 @@ def _evaluate(expr: sp.Expr, num: dict, what: str) -> float:
         raise ValueError(f"cannot evaluate {what}: {value}") from exc
 
 
-def figures(ir: ModelIR, overrides: dict[str, float] | None = None) -> dict[str, float]:
-    """Key figures (parameter-only) as floats."""
+def figures(ir: ModelIR, overrides: dict[str, float] | None = None,
+            temperature: float | None = None) -> dict[str, float]:
+    """Key figures as floats, at ``temperature`` [K] (default: the parameters' own ``tnom``)."""
     num = numeric_parameters(ir, overrides)
+    tdep = ir.temperature_dependent()
+    if tdep:
+        if temperature is None:
+            temperature = num[ir.params["tnom"].symbol] if "tnom" in ir.params else DEFAULT_TEMPERATURE
+        num[ir.temperature] = float(temperature)
+        for sym, expr in ir.derived:
+            if sym in tdep:
+                num[sym] = _evaluate(expr, num, str(sym))
     return {f.name: _evaluate(f.expr, num, f.name) for f in ir.figures}
 
 

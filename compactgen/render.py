@@ -102,6 +102,43 @@ def verilog_a(ir: ModelIR) -> str:
     return environment().get_template("verilog_a/model.va.j2").render(**ctx)
 
 
+def _section_default(ir: ModelIR, spec) -> str:
+    """Subcircuit default of a parameter: the variation parameters read the library section's
+    globals (corner, global draws, mismatch switch); every other one is its number."""
+    if not _sections(ir):
+        return format_number(spec.default)
+    if spec.name == "corner" or spec.name.startswith("zg_"):
+        return f"{{{ir.name}_{spec.name}}}"
+    if spec.name.startswith("zl_"):
+        return f"{{{ir.name}_mismatch*agauss(0,1,1)}}"
+    return format_number(spec.default)
+
+
+def _sections(ir: ModelIR) -> list[dict]:
+    """The .lib sections of a model with process variation (devices/variation.py): corners tt, ss,
+    ff, and Monte Carlo on the typical mean with global and local variation switched separately.
+    A global draw is a brace-less ``.param x_draw=agauss(0,1,1)``, read through a second .param:
+    ngspice then evaluates it once per run; referenced directly from the subcircuit defaults it
+    is re-drawn in every instance (measured, ngspice 39)."""
+    if "corner" not in ir.params:
+        return []
+    from .devices.variation import CORNERS
+
+    zg = [s.name for s in ir.params if s.name.startswith("zg_")]
+    out = []
+    for name, z in CORNERS.items():
+        out.append(dict(name=name, desc=f"corner {name}: every varied parameter at {z:+g} global sigma",
+                        globals=[("corner", format_number(z)), ("mismatch", "0.0")] + [(g, "0.0") for g in zg]))
+    for name, g_on, l_on in (("mc", 1, 1), ("mc_global", 1, 0), ("mc_local", 0, 1)):
+        what = {"mc": "global and local (mismatch) variation", "mc_global": "global variation only",
+                "mc_local": "local (mismatch) variation only"}[name]
+        out.append(dict(name=name, desc=f"Monte Carlo about the typical mean, {what}",
+                        globals=[("corner", "0.0"), ("mismatch", f"{l_on:.1f}")]
+                        + [x for g in zg for x in ([(f"{g}_draw", "agauss(0,1,1)"),
+                                                        (g, f"{{{ir.name}_{g}_draw*1.0}}")] if g_on else [(g, "0.0")])]))
+    return out
+
+
 def ngspice(ir: ModelIR) -> str:
     """ngspice subcircuit: parameter-only quantities as .param, everything that depends on
     bias, state or temperature inlined into the B-source expressions, expanded and with their
@@ -132,6 +169,20 @@ def ngspice(ir: ModelIR) -> str:
 
         return hoist(min(candidates, key=size))
 
+    # a temperature-dependent quantity that bias-dependent expressions use is computed once on a
+    # node of its own (V = value): inlined, its Bloch and Callen-Callen powers of `temper` were
+    # repeated in every B-source and its derivatives (transients ~4x slower); as a .param it is
+    # no faster, because ngspice re-inlines every .param that reads `temper`
+    used: set[sp.Symbol] = set()
+    for e in ([e for _, e in ir.locals] + [st.rhs for st in ir.states] + [st.initial for st in ir.states]
+              + [b.current for b in ir.branches]):
+        used |= e.free_symbols & tdep
+    tnodes = []
+    for sym, _ in ir.derived:
+        if sym in used:
+            tnodes.append(dict(name=f"tq_{sym}", code=spice_wrap(pr.code(inline[sym]))))
+            pr.symbol_map[f"tqn_{sym}"] = f"V(tq_{sym})"
+            inline[sym] = sp.Symbol(f"tqn_{sym}", real=True)
     aux, extra_derived = [], []
     for sym, e in ir.locals:
         if sym in ir.shared:
@@ -158,9 +209,11 @@ def ngspice(ir: ModelIR) -> str:
 
     ctx = _common(ir)
     ctx.update(
-        params=[dict(name=s.name, default=format_number(s.default)) for s in ir.params],
+        params=[dict(name=s.name, default=_section_default(ir, s)) for s in ir.params],
+        sections=_sections(ir),
         constants=[dict(name=str(k), code=format_number(v)) for k, v in ir.constants.items()],
         aux=aux,
+        temperature_nodes=tnodes,
         states=[dict(name=s.name, desc=s.desc, residual=spice_wrap(residual(s)), initial=code(s.initial))
                 for s in ir.states],
         time_scale=str(ir.time_scale),

@@ -20,6 +20,7 @@ from . import render
 from .benches import Bench, Dc, Pulse, Pwl
 from .errors import OutOfCalibratedRange, SimulationError
 from .ir import ModelIR
+from .constants import ZERO_CELSIUS
 from .printing.base import format_number
 from .reference import ReferenceModel, Trace
 
@@ -109,7 +110,8 @@ def _context(ir: ModelIR, bench: Bench) -> dict:
                instance=[(k, format_number(v)) for k, v in bench.instance.items()],
                instance_only=[(k, format_number(v)) for k, v in bench.instance.items() if not model_kind.get(k)],
                model_params=[(k, format_number(v)) for k, v in bench.instance.items() if model_kind.get(k)],
-               analysis=bench.analysis, reltol=format_number(RELTOL))
+               analysis=bench.analysis, reltol=format_number(RELTOL),
+               temp_c=None if bench.temperature is None else format_number(bench.temperature - ZERO_CELSIUS))
     if bench.analysis == "dc":
         term, a, b, step = bench.sweep
         ctx["sweep"] = dict(term=term, start=format_number(a), stop=format_number(b), step=format_number(step))
@@ -122,7 +124,8 @@ def _context(ir: ModelIR, bench: Bench) -> dict:
 def ngspice_deck(ir: ModelIR, bench: Bench, lib_path: str) -> str:
     env = render.environment()
     env.loader.searchpath.append(str(render.TEMPLATE_DIR.parent / "ngspice_decks"))
-    return env.get_template("bench.cir.j2").render(lib_path=lib_path, **_context(ir, bench))
+    section = "tt" if "corner" in ir.params else ""  # a library with process-variation sections
+    return env.get_template("bench.cir.j2").render(lib_path=lib_path, lib_section=section, **_context(ir, bench))
 
 
 def vacask_netlist(ir: ModelIR, bench: Bench, osdi_name: str) -> str:
@@ -155,7 +158,8 @@ def _trace_vacask(ir: ModelIR, bench: Bench, plots: dict) -> Trace:
 
 
 def reference_trace(ir: ModelIR, bench: Bench) -> Trace:
-    model = ReferenceModel(ir, bench.instance)
+    model = ReferenceModel(ir, bench.instance, **({} if bench.temperature is None else
+                                                     {"temperature": bench.temperature}))
     if bench.analysis == "dc":
         term = bench.sweep[0]
         vs = bench.sweep_values()

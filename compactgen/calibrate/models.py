@@ -96,7 +96,9 @@ def expand_ir(ir, override: dict | None = None):
     override = override or {}
     P = ir.params.symbols()
     names = ir.params.names()
-    full: dict = {}
+    # the data temperature becomes the card's tnom, so temperature-dependent quantities are
+    # evaluated at T = tnom
+    full: dict = {ir.temperature: P["tnom"]} if "tnom" in P else {}
     for s, e in ir.derived:
         full[s] = sp.sympify(e).xreplace(full)
     loc: dict = {}
@@ -109,7 +111,7 @@ def stt_functions(card) -> SttFunctions:
     ir = card.ir()
     names, psyms, full, loc = expand_ir(ir)
     figs = {f.name: sp.sympify(f.expr).xreplace(full) for f in ir.figures}
-    by_name = {str(s): s for s in list(full) + list(loc)}
+    by_name = {str(s): s for s in list(full) + list(loc) if s != ir.temperature}
     const = ir.constants
     v = next(iter(ir.voltages))
     mz = sp.Symbol("mz", real=True)

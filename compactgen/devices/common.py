@@ -8,7 +8,7 @@ import math
 
 import sympy as sp
 
-from ..physics import anisotropy, geometry, macrospin, thermal, tunnelling
+from ..physics import anisotropy, geometry, macrospin, temperature, thermal, tunnelling
 from ..physics.constants import const_values, gamma0
 from ..params import ParamSpec
 
@@ -45,6 +45,17 @@ def free_layer_specs() -> list[ParamSpec]:
         ParamSpec("tnom", "K", 300.15, 150.0, 500.0,
                   "temperature at which the parameters were measured; sets the thermal initial angle",
                   card_unit="degC", group="temperature"),
+        ParamSpec("t_curie", "K", 1000.0, 450.0, 3000.0,
+                  "Curie temperature of the free layer in Ms(T) = Ms(0)[1 - (T/T_c)^(3/2)]",
+                  source="law: common practice, no source (PHYSICS 9); CoFeB T_c ~1000 K or more (from memory)",
+                  card_unit="K", group="temperature"),
+        ParamSpec("aniso_exp", "1", 3.0, 1.0, 4.0,
+                  "Callen-Callen exponent n of K(T) = K(tnom) [Ms(T)/Ms(tnom)]^n",
+                  source="n = 3 single-ion: H. B. Callen and E. Callen, J. Phys. Chem. Solids 27, 1271 (1966) "
+                         "(from memory); CoFeB/MgO ~2-2.5 (from memory)", group="temperature"),
+        ParamSpec("dtemp", "K", 0.0, -200.0, 300.0,
+                  "device temperature above the simulator temperature (self-heating, local hot spot)",
+                  kind="instance", card_unit="K", group="temperature"),
     ]
 
 
@@ -59,6 +70,10 @@ def mtj_read_specs() -> list[ParamSpec]:
                   source="CoFeB/MgO pMTJ ~1.0-2.0 at room temperature (from memory)", required=True, group=g),
         ParamSpec("v_half", "V", 0.5, 0.02, 10.0, "bias at which the TMR ratio has halved",
                   source="MgO ~0.3-0.6 V (from memory); law: common practice, no source", card_unit="V", group=g),
+        ParamSpec("pol_decay", "1/K^1.5", 2e-5, 0.0, 1e-4,
+                  "spin-polarisation decay alpha_sp in P(T) = P0 (1 - alpha_sp T^(3/2)) (TMR(T) through Julliere)",
+                  source="C. H. Shang et al., Phys. Rev. B 58, R2917 (1998) (law seen; value illustrative)",
+                  card_unit="1/K^1.5", group="temperature"),
     ]
 
 
@@ -82,6 +97,9 @@ def orientation_specs() -> list[ParamSpec]:
         ParamSpec("tilt0", "rad", 0.0, 0.0, 1.5,
                   "initial cone angle of the free layer; 0 = thermal most-probable angle sqrt(1/(2 Delta)) at tnom",
                   kind="instance", group=g),
+        ParamSpec("phi0", "rad", 0.0, -7.0, 7.0,
+                  "initial azimuth of the free layer about z (with tilt0: a drawn thermal initial state)",
+                  kind="instance", group=g),
     ]
 
 
@@ -89,6 +107,14 @@ def cylinder_nz(values: dict[str, float], mode: str) -> float:
     if mode == "thin-film":
         return 1.0
     return geometry.cylinder_demag_nz(values["diameter"], values["t_free"])
+
+
+#: the simulator temperature [K] ($temperature in Verilog-A, temper + 273.15 in ngspice)
+TEMPERATURE = sp.Symbol("temp_k", positive=True)
+#: names of the effective-field locals to which the stochastic solver adds Brown's thermal field
+FIELD_LOCALS = ("heff_x", "heff_y", "heff_z")
+#: name of the derived thermal-field strength D [(A/m)^2 s] at the device temperature
+NOISE_STRENGTH = "hth_strength"
 
 
 class Parts:
@@ -100,6 +126,8 @@ class Parts:
         self.locals: list[tuple[sp.Symbol, sp.Expr]] = []
         self.constraints: list[tuple[sp.Expr, str]] = []
         self.shared: dict[sp.Symbol, sp.Expr] = {}
+        #: temperature-dependent symbol -> its value at tnom (node scales must not depend on T)
+        self.nominal: dict[sp.Symbol, sp.Symbol] = {}
 
     def d(self, name: str, expr, positive: bool = False) -> sp.Symbol:
         s = sp.Symbol(name, real=True, positive=True) if positive else sp.Symbol(name, real=True)
@@ -109,32 +137,67 @@ class Parts:
     def loc(self, name: str, expr, node_scale=None) -> sp.Symbol:
         """A bias/state-dependent quantity.  ``node_scale`` (parameter-only) marks one that several
         equations share: ngspice then computes it once on an auxiliary node (value/scale, O(1))
-        instead of repeating its expression inside every B-source."""
+        instead of repeating its expression inside every B-source.  Temperature-dependent
+        quantities in the scale are replaced by their tnom values (a scale only sets magnitudes)."""
         s = sp.Symbol(name, real=True)
         self.locals.append((s, sp.sympify(expr)))
         if node_scale is not None:
-            self.shared[s] = sp.sympify(node_scale)
+            self.shared[s] = sp.sympify(node_scale).xreplace(self.nominal)
         return s
 
 
+def device_temperature(parts: Parts) -> sp.Symbol:
+    """The derived device temperature T = simulator temperature + dtemp (defined once per model)."""
+    for sym, _ in parts.derived:
+        if sym.name == "temp_dev":
+            return sym
+    return parts.d("temp_dev", temperature.device_temperature(TEMPERATURE, parts.P["dtemp"]), positive=True)
+
+
 def free_layer(parts: Parts, area):
-    """Derived quantities of a perpendicular free layer; returns a dict of symbols."""
+    """Derived quantities of a perpendicular free layer; returns a dict of symbols.
+
+    The card values hold at ``tnom``; the layer's quantities at the device temperature
+    T = simulator temperature + dtemp follow Ms(T) (Bloch) and K(T) (Callen-Callen).  After this
+    call ``parts.P["ms"]`` is Ms(T), so every later use of it in a device kind (torques, read-out,
+    figures) is temperature dependent too.  In the returned dict ``hk``, ``hk_eff``, ``keff``,
+    ``e_b``, ``delta_nom`` are the values at tnom (for time and node scales, which must not depend
+    on temperature), ``ms_t``, ``hk_t``, ``hk_eff_t``, ``keff_t``, ``e_b_t``, ``delta_t`` the values
+    at T.  The time scale ``tsc`` and the default thermal tilt use the tnom values.
+    """
     P = parts.P
+    ms_nom = P["ms"]
     ku = parts.d("ku", anisotropy.uniaxial_energy_density(P["kb"], P["ki"], P["t_free"]))
-    hk = parts.d("hk", anisotropy.anisotropy_field(ku, P["ms"]))
+    hk = parts.d("hk", anisotropy.anisotropy_field(ku, ms_nom))
     nx = parts.d("demag_nx", (1 - P["demag_nz"]) / 2)
-    hk_eff = parts.d("hk_eff", anisotropy.effective_anisotropy_field(hk, P["ms"], nx, P["demag_nz"]))
+    hk_eff = parts.d("hk_eff", anisotropy.effective_anisotropy_field(hk, ms_nom, nx, P["demag_nz"]))
     parts.constraints.append((hk_eff, "the effective anisotropy field H_k,eff must be positive "
                               "(perpendicular free layer); raise ki or lower ms"))
     vol = parts.d("vol", area * P["t_free"], positive=True)
-    keff = parts.d("keff", anisotropy.effective_energy_density(hk_eff, P["ms"]))
+    keff = parts.d("keff", anisotropy.effective_energy_density(hk_eff, ms_nom))
     e_b = parts.d("e_b", thermal.barrier_energy(keff, vol))
     delta_nom = parts.d("delta_nom", thermal.thermal_stability(e_b, P["tnom"]))
     tsc = parts.d("tsc", 1 / (gamma0 * hk_eff))
     tilt = parts.d("tilt", sp.Piecewise((thermal.thermal_mode_angle(delta_nom), P["tilt0"] <= 0), (P["tilt0"], True)))
     sgn = parts.d("sgn0", sp.Piecewise((1, P["state0"] >= 0), (-1, True)))
+    # at the device temperature
+    temp = device_temperature(parts)
+    ms_ratio = parts.d("ms_ratio", temperature.magnetisation_ratio(temp, P["tnom"], P["t_curie"]), positive=True)
+    ms_t = parts.d("ms_t", ms_nom * ms_ratio, positive=True)
+    ku_t = parts.d("ku_t", temperature.callen_callen(ku, ms_ratio, P["aniso_exp"]))
+    hk_t = parts.d("hk_t", anisotropy.anisotropy_field(ku_t, ms_t))
+    hk_eff_t = parts.d("hk_eff_t", anisotropy.effective_anisotropy_field(hk_t, ms_t, nx, P["demag_nz"]))
+    keff_t = parts.d("keff_t", anisotropy.effective_energy_density(hk_eff_t, ms_t))
+    e_b_t = parts.d("e_b_t", thermal.barrier_energy(keff_t, vol))
+    delta_t = parts.d("delta_t", thermal.thermal_stability(e_b_t, temp))
+    strength = parts.d(NOISE_STRENGTH, thermal.thermal_field_strength(P["alpha"], ms_t, vol, temp), positive=True)
+    P["ms"] = ms_t
+    parts.nominal.update({ms_t: ms_nom, ku_t: ku, hk_t: hk, hk_eff_t: hk_eff, keff_t: keff, e_b_t: e_b,
+                          delta_t: delta_nom})
     return dict(ku=ku, hk=hk, nx=nx, hk_eff=hk_eff, vol=vol, keff=keff, e_b=e_b, delta_nom=delta_nom,
-                tsc=tsc, tilt=tilt, sgn0=sgn)
+                tsc=tsc, tilt=tilt, sgn0=sgn, ms_nom=ms_nom, temp=temp, ms_ratio=ms_ratio, ms_t=ms_t, ku_t=ku_t,
+                hk_t=hk_t, hk_eff_t=hk_eff_t, keff_t=keff_t, e_b_t=e_b_t, delta_t=delta_t,
+                noise_strength=strength)
 
 
 def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p, extra_torques=()):
@@ -147,22 +210,33 @@ def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p, extra_torques=()):
     P = parts.P
     m = [sp.Symbol(n, real=True) for n in ("mx", "my", "mz")]
     n = (fl["nx"], fl["nx"], P["demag_nz"])
-    heff = anisotropy.effective_field(m, fl["hk"], P["ms"], n, (P["hx"], P["hy"], P["hz"]))
-    hx_ = parts.loc("heff_x", heff[0])
-    hy_ = parts.loc("heff_y", heff[1])
-    hz_ = parts.loc("heff_z", heff[2])
+    heff = anisotropy.effective_field(m, fl.get("hk_t", fl["hk"]), P["ms"], n, (P["hx"], P["hy"], P["hz"]))
+    hx_ = parts.loc(FIELD_LOCALS[0], heff[0])
+    hy_ = parts.loc(FIELD_LOCALS[1], heff[1])
+    hz_ = parts.loc(FIELD_LOCALS[2], heff[2])
     rhs = macrospin.llg_explicit(m, (hx_, hy_, hz_), P["alpha"], h_dl, h_fl, p)
     for dl, fl_, pp in extra_torques:
         rhs = rhs + macrospin.llg_explicit(m, (0, 0, 0), P["alpha"], dl, fl_, pp)
     rhs = rhs + macrospin.sphere_restoring(m, 1 / fl["tsc"])
-    init = [sp.sin(fl["tilt"]), sp.Integer(0), fl["sgn0"] * sp.cos(fl["tilt"])]
+    init = [sp.sin(fl["tilt"]) * sp.cos(P["phi0"]), sp.sin(fl["tilt"]) * sp.sin(P["phi0"]),
+            fl["sgn0"] * sp.cos(fl["tilt"])]
     descs = ["free-layer m_x", "free-layer m_y", "free-layer m_z (+1 = parallel to the reference layer)"]
     states = [State(str(s), s, r, i, dsc) for s, r, i, dsc in zip(m, rhs, init, descs)]
     return m, states
 
 
 def mtj_conductance(parts: Parts, area, v, cos_theta):
+    """Junction conductance with TMR(T): the card's tmr0 holds at tnom; the spin polarisation of
+    Julliere's formula follows Shang's P(T).  After this call ``parts.P["tmr0"]`` is TMR(T)."""
     P = parts.P
+    if {"pol_decay", "tnom", "dtemp"} <= set(P):
+        p_nom = parts.d("pol_nom", tunnelling.julliere_polarisation(P["tmr0"]), positive=True)
+        parts.constraints.append((1 - P["pol_decay"] * P["tnom"] ** sp.Rational(3, 2) - p_nom,
+                                  "pol_decay is too large for tmr0: the spin polarisation would exceed 1 "
+                                  "at low temperature; lower pol_decay"))
+        temp = device_temperature(parts)
+        pol_t = parts.d("pol_t", p_nom * temperature.polarisation_ratio(temp, P["tnom"], P["pol_decay"]))
+        P["tmr0"] = parts.d("tmr_t", tunnelling.julliere_tmr(pol_t, pol_t))
     return parts.loc("g_mtj", tunnelling.mtj_conductance(P["ra"], area, P["tmr0"], P["v_half"], v, cos_theta),
                      node_scale=area / P["ra"])
 

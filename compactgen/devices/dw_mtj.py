@@ -23,6 +23,7 @@ from ..ir import Branch, Figure, ModelIR, Output, State
 from ..params import ParamSpec
 from ..physics import anisotropy, domain_wall, heavy_metal, torques, tunnelling
 from ..physics.constants import const_values, gamma0
+from .variation import apply_variation, variation_specs
 from .base import DeviceKind, register
 from .common import NM, Parts, free_layer_specs, limit_specs, mtj_conductance, mtj_read_specs
 from .sot_mtj import MT
@@ -34,6 +35,11 @@ EDGE_INSET = 3
 #: the track must be at least this many wall widths long
 MIN_TRACK_WIDTHS = 10
 
+
+#: process variation (devices/variation.py): name, direction of the slow corner, global sigma,
+#: mismatch sigma at area_ref -- illustrative defaults, no source
+VARIED = (("ra", +1, 0.03, 0.015), ("tmr0", -1, 0.03, 0.015), ("theta_sh", -1, 0.05, 0.02),
+          ("h_dep", +1, 0.1, 0.05), ("rho_hm", +1, 0.03, 0.01))
 
 @register
 class DwMtj(DeviceKind):
@@ -86,12 +92,13 @@ class DwMtj(DeviceKind):
         fields = [s for s in track if s.group == "fields"]
         track = [s for s in track if s.group != "fields"]
         return (track + geo + fields + mtj_read_specs() + mtj + heavy_metal_specs() + pin
-                + limit_specs(v_max=1.0, j_max=5e12) + inst)
+                + limit_specs(v_max=1.0, j_max=5e12) + inst + variation_specs(VARIED))
 
     def build_ir(self, name, values, options) -> ModelIR:
         table = self.table_with(values)
         P = table.symbols()
         parts = Parts(P)
+        apply_variation(parts, VARIED, P["mtj_length"] * P["track_width"])
         L, w = P["track_length"], P["track_width"]
         # perpendicular track, thin-film demagnetisation (N_z = 1)
         ku = parts.d("ku", anisotropy.uniaxial_energy_density(P["kb"], P["ki"], P["t_free"]))

@@ -19,6 +19,7 @@ from ..ir import Branch, Figure, ModelIR, Output
 from ..params import ParamSpec
 from ..physics import geometry, heavy_metal, macrospin, spin_orbit, torques
 from ..physics.constants import const_values
+from .variation import apply_variation, variation_specs
 from .base import DeviceKind, register
 from .common import (NM, Parts, free_layer, free_layer_specs, limit_specs, macrospin_states,
                      mtj_conductance, mtj_read_specs, orientation_specs)
@@ -28,6 +29,11 @@ from .write_line import (CONVENTIONS, WHY_DC, heavy_metal_specs, line_current_de
 
 MT = 1e-3 / MU0  # A/m per mT, for readable defaults
 
+
+#: process variation (devices/variation.py): name, direction of the slow corner, global sigma,
+#: mismatch sigma at area_ref -- illustrative defaults, no source
+VARIED = (("ra", +1, 0.03, 0.015), ("tmr0", -1, 0.03, 0.015), ("ki", +1, 0.01, 0.005),
+          ("theta_sh", -1, 0.05, 0.02), ("rho_hm", +1, 0.03, 0.01))
 
 @register
 class SotMtj(DeviceKind):
@@ -52,7 +58,7 @@ class SotMtj(DeviceKind):
                                            "(constant)")
                for s in SttMtj().param_specs() if s.name == "eta"]
         return (fl + mtj_read_specs() + heavy_metal_specs() + line + stt
-                + limit_specs(v_max=1.0, j_max=1.5e13) + orientation_specs())
+                + limit_specs(v_max=1.0, j_max=1.5e13) + orientation_specs() + variation_specs(VARIED))
 
     derive_defaults = SttMtj.derive_defaults  # demagnetising factor from the pillar, as for stt-mtj
 
@@ -61,6 +67,7 @@ class SotMtj(DeviceKind):
         P = table.symbols()
         parts = Parts(P)
         area = parts.d("area_fl", geometry.disk_area(P["diameter"]), positive=True)
+        apply_variation(parts, VARIED, area)
         fl = free_layer(parts, area)
         r_line = parts.d("r_line", heavy_metal.line_resistance(P["rho_hm"], P["line_length"], P["line_width"],
                                                                P["t_hm"]), positive=True)
@@ -84,14 +91,14 @@ class SotMtj(DeviceKind):
         parts.constraints.append((fl["hk_eff"] - sp.Abs(P["hx"]),
                                   "the bias field |hx| must stay below the effective anisotropy field H_k,eff "
                                   "(else the free layer lies in plane)"))
-        h_c = spin_orbit.threshold_field(sp.Abs(P["hx"]), fl["hk_eff"])
+        h_c = spin_orbit.threshold_field(sp.Abs(P["hx"]), fl["hk_eff_t"])
         j_c = spin_orbit.current_density_for_field(h_c, sp.Abs(P["theta_sh"]), P["ms"], P["t_free"])
         r_p = P["ra"] / area
         figures = [
             Figure("r_line", r_line, "ohm", "write-line resistance rho L/(w t) between w1 and w2"),
             Figure("r_p", r_p, "ohm", "junction resistance, parallel state, zero bias"),
             Figure("r_ap", r_p * (1 + P["tmr0"]), "ohm", "junction resistance, antiparallel state, zero bias"),
-            Figure("hk_eff", fl["hk_eff"], "A/m", "effective anisotropy field"),
+            Figure("hk_eff", fl["hk_eff_t"], "A/m", "effective anisotropy field"),
             Figure("delta", fl["delta_nom"], "1", "thermal stability factor E_b/(k_B tnom)"),
             Figure("j_c_sot", j_c, "A/m^2", "quasi-static SOT threshold (exact torque balance, field-like torque "
                    "neglected)", "PHYSICS 5, derived; K.-S. Lee et al., Appl. Phys. Lett. 102, 112410 (2013)"),

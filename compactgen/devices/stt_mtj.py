@@ -14,13 +14,21 @@ from scipy.optimize import brentq
 from ..benches import (Bench, Dc, Metric, Pulse, crossing_time, dc_curve_deviation_factory, dc_resistance_at,
                        extreme_value, final_value, switching_time)
 from ..ir import Branch, Figure, ModelIR, Output, Terminal
-from ..physics import geometry, macrospin, switching, torques
+from ..physics import geometry, macrospin, switching, thermal, torques
+from ..constants import ZERO_CELSIUS
 from ..physics.constants import const_values
 from ..reference import ReferenceModel, figures
 from .base import DeviceKind, Option, register
 from .common import (Parts, cylinder_nz, free_layer, free_layer_specs, limit_specs, macrospin_states,
                      mtj_conductance, mtj_read_specs, orientation_specs)
 from ..params import ParamSpec
+from .variation import apply_variation, variation_specs
+
+
+#: parameters with process variation: (name, direction of the slow corner, global sigma, mismatch
+#: sigma at area_ref) -- illustrative spreads, no source (devices/variation.py)
+VARIED = (("ra", +1, 0.03, 0.015), ("tmr0", -1, 0.03, 0.015), ("ki", +1, 0.01, 0.005),
+          ("alpha", +1, 0.05, 0.02), ("eta", -1, 0.03, 0.015))
 
 
 @register
@@ -40,7 +48,8 @@ class SttMtj(DeviceKind):
             ParamSpec("xi_fl", "1", 0.0, -2.0, 2.0, "field-like to damping-like torque ratio",
                       source="|xi| <~ 0.3 typical for MgO MTJs (from memory)", group="spin-transfer torque"),
         ]
-        return free_layer_specs() + mtj_read_specs() + stt + limit_specs() + orientation_specs()
+        return (free_layer_specs() + mtj_read_specs() + stt + limit_specs() + orientation_specs()
+                + variation_specs(VARIED))
 
     def derive_defaults(self, values, options, given=frozenset()):
         out = dict(values)
@@ -53,6 +62,7 @@ class SttMtj(DeviceKind):
         P = table.symbols()
         parts = Parts(P)
         area = parts.d("area_fl", geometry.disk_area(P["diameter"]), positive=True)
+        apply_variation(parts, VARIED, area)
         fl = free_layer(parts, area)
         v = sp.Symbol("v_tb", real=True)
         mz_sym = sp.Symbol("mz", real=True)
@@ -65,18 +75,24 @@ class SttMtj(DeviceKind):
         _, states = macrospin_states(parts, fl, h_dl, h_fl, (0, 0, 1))
         # key figures (parameter-only)
         r_p = P["ra"] / area
-        i_c0 = switching.stt_critical_current(P["alpha"], P["eta"], P["ms"], fl["vol"], fl["hk_eff"])
+        i_c0 = switching.stt_critical_current(P["alpha"], P["eta"], P["ms"], fl["vol"], fl["hk_eff_t"])
         figures = [
             Figure("r_p", r_p, "ohm", "resistance, parallel state, zero bias"),
             Figure("r_ap", r_p * (1 + P["tmr0"]), "ohm", "resistance, antiparallel state, zero bias"),
-            Figure("hk_eff", fl["hk_eff"], "A/m", "effective anisotropy field"),
-            Figure("delta", fl["delta_nom"], "1", "thermal stability factor E_b/(k_B tnom)"),
+            Figure("hk_eff", fl["hk_eff_t"], "A/m", "effective anisotropy field"),
+            Figure("delta", fl["delta_t"], "1", "thermal stability factor E_b/(k_B T)"),
             Figure("i_c0", i_c0, "A", "zero-temperature STT critical current",
                    "J. Z. Sun, Phys. Rev. B 62, 570 (2000)"),
             Figure("j_c0", i_c0 / area, "A/m^2", "critical current density"),
-            Figure("tau_prec", switching.precession_time_scale(P["alpha"], fl["hk_eff"]), "s",
+            Figure("tau_prec", switching.precession_time_scale(P["alpha"], fl["hk_eff_t"]), "s",
                    "precessional time scale (1+alpha^2)/(alpha gamma0 H_k,eff)"),
-            Figure("f_fmr", macrospin.kittel_frequency(P["hz"], fl["hk"], P["ms"], (fl["nx"], fl["nx"], P["demag_nz"])),
+            Figure("retention", thermal.neel_brown_time(1e-9, fl["delta_t"]), "s",
+                   "Neel-Brown retention time tau0 exp(Delta) with the conventional tau0 = 1 ns",
+                   "L. Neel, Ann. Geophys. 5, 99 (1949) (from memory); W. F. Brown, Phys. Rev. 130, 1677 (1963)"),
+            Figure("dwell_brown", 2 * thermal.brown_relaxation_time(P["alpha"], fl["hk_eff_t"], fl["delta_t"]), "s",
+                   "mean dwell time in one state, 2 tau_N with Brown's attempt time (high-barrier limit)",
+                   "W. F. Brown, Phys. Rev. 130, 1677 (1963)"),
+            Figure("f_fmr", macrospin.kittel_frequency(P["hz"], fl["hk_t"], P["ms"], (fl["nx"], fl["nx"], P["demag_nz"])),
                    "Hz", "ferromagnetic resonance frequency (P state)", "C. Kittel, Phys. Rev. 73, 155 (1948)"),
         ]
         ir = ModelIR(
@@ -125,6 +141,8 @@ WHY_R = ("DC operating point: only the Newton tolerance (reltol 1e-6) and 17-dig
          "printing separate the simulators from the reference; 0.1 % bounds both with margin")
 WHY_TSW = ("trapezoidal integration, step cap 1/20 of the precession period: measured errors "
            "<= 0.3 % in switching time; 1 % leaves margin for the restart after each pulse edge")
+#: circuit temperatures of the temperature benches [degC]: automotive low end, room, hot
+BENCH_TEMPERATURES_C = (-40.0, 25.0, 125.0)
 WHY_FINAL = "after the pulse the free layer relaxes to a pole; 0.02 absolute on m_z"
 
 
@@ -176,6 +194,25 @@ def stt_benches(ir, values: dict[str, float]) -> list[Bench]:
                 f"{k:g} x I_c0 ({k * i_c0 * 1e6:.1f} uA, {v:+.3f} V)",
                 "tran", {"t": pulse, "b": Dc(0.0)}, metrics, instance={"state0": start},
                 t_stop=t_stop, t_step=1e-11, max_step=tmax, plot=("state:mz", "current:t")))
+    # temperature: TMR(T) in the AP resistance, Ms(T) and K(T) in the switching time
+    for t_c in BENCH_TEMPERATURES_C:
+        t_k = t_c + ZERO_CELSIUS
+        tag = f"{t_c:+.0f}C".replace("+", "p").replace("-", "m")
+        metrics = [Metric(f"R at {v:+.2f} V", "ohm", dc_resistance_at("t", "b", v), 1e-3, 0.0, WHY_R)
+                   for v in (-0.5, 0.1, 0.5)]
+        benches.append(Bench(f"temp_rv_antiparallel_{tag}", f"R-V sweep, antiparallel state, at {t_c:g} degC", "dc", {},
+                             metrics, instance={"state0": -1.0}, sweep=sweep, plot=("resistance",), temperature=t_k))
+        model = ReferenceModel(ir, {"state0": -1.0}, temperature=t_k)
+        i_c0_t = figures(ir, temperature=t_k)["i_c0"]
+        v = bias_for_current(model, 2.0 * i_c0_t, -1.0)
+        width = _pulse_width(model, v, delay, rise)
+        benches.append(Bench(
+            f"temp_write_to_p_2ic0_{tag}", f"AP->P write at {t_c:g} degC, 2 x I_c0(T) ({2 * i_c0_t * 1e6:.1f} uA, {v:+.3f} V)",
+            "tran", {"t": Pulse(0.0, v, delay, rise, rise, width), "b": Dc(0.0)},
+            [Metric("switching time", "s", switching_time("mz", delay, 1), 1e-2, 0.0, WHY_TSW),
+             Metric("final m_z", "1", final_value("mz"), 0.0, 0.02, WHY_FINAL, expect=(1.0, 0.02))],
+            instance={"state0": -1.0}, t_stop=delay + 2 * rise + width + 1.0e-9, t_step=1e-11, max_step=tmax,
+            plot=("state:mz",), temperature=t_k))
     # sub-threshold: half the critical current must not switch
     model = ReferenceModel(ir, {"state0": -1.0})
     v = bias_for_current(model, 0.5 * i_c0, -1.0)

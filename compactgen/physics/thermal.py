@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import sympy as sp
 
-from .constants import gamma0, k_b
+from .constants import gamma0, k_b, mu0
 
 
 def barrier_energy(k_eff, volume):
@@ -43,3 +43,21 @@ def activated_switching_time(tau0, delta, i_ratio, exponent):
     (R. H. Koch, J. A. Katine and J. Z. Sun, Phys. Rev. Lett. 92, 088302 (2004) with n = 1;
     n = 2 for perpendicular macrospins: T. Taniguchi and H. Imamura, arXiv:1010.5845)."""
     return tau0 * sp.exp(delta * (1 - i_ratio) ** exponent)
+
+
+def thermal_field_strength(alpha, ms, volume, temperature):
+    """Strength D of Brown's thermal field in the Gilbert equation  [(A/m)^2 s]:
+    <H_th,i(t) H_th,j(t')> = D delta_ij delta(t - t'),  D = 2 alpha k_B T / (gamma0 mu0 Ms V),
+    gamma0 = mu0 |gamma_e|; a time step dt gives each component the variance D/dt.
+
+    Source: W. F. Brown, Phys. Rev. 130, 1677 (1963); the Gilbert gamma (not gamma/(1+alpha^2))
+    belongs here even when the explicit LL form is integrated: J. L. Garcia-Palacios and
+    F. J. Lazaro, Phys. Rev. B 58, 14937 (1998) (volume/page from memory), PHYSICS 8."""
+    return 2 * alpha * k_b * temperature / (gamma0 * mu0 * ms * volume)
+
+
+def boltzmann_cone_weight(theta, delta):
+    """Unnormalised equilibrium density of the cone angle of a uniaxial macrospin in zero field,
+    p(theta) ~ sin(theta) exp(-Delta sin^2 theta) (Boltzmann weight of E = K_eff V sin^2 theta
+    times the solid-angle factor; near a pole the 2D Rayleigh form of PHYSICS 4.4)."""
+    return sp.sin(theta) * sp.exp(-delta * sp.sin(theta) ** 2)

@@ -35,6 +35,13 @@ def julliere_tmr(p1, p2):
     return 2 * p1 * p2 / (1 - p1 * p2)
 
 
+def julliere_polarisation(tmr):
+    """Spin polarisation of two identical electrodes from the TMR ratio (Julliere inverted):
+    TMR = 2P^2/(1 - P^2)  =>  P = sqrt(TMR / (2 + TMR))  (M. Julliere, Phys. Lett. 54A, 225
+    (1975), normalised by R_P as julliere_tmr)."""
+    return sp.sqrt(tmr / (2 + tmr))
+
+
 def mtj_conductance(ra, area, tmr0, v_half, v, cos_theta):
     """Conductance of a pillar: R_P = RA/area bias-independent, R_AP(V) = R_P (1 + TMR(V)),
     interpolated in cos(theta) (common compact-model practice, no source)."""
