@@ -56,7 +56,10 @@ def fit_dw_card(card, datasets: list[Dataset], free: list[str] | None = None, fi
                 progress=None) -> CardFit:
     """Fit a dw-mtj ``card`` to wall-velocity ``datasets``; ``free``/``fix`` override the default."""
     specs = {s.name: s for s in card.device.table()}
-    start = dict(card.values)
+    # the data describe typical devices: the model is evaluated at the typical process point (corner 0,
+    # no Monte Carlo draws; devices/variation.py); the card keeps its own corner and draws
+    process = {n: 0.0 for n in card.values if n == "corner" or n.startswith(("zg_", "zl_"))}
+    start = dict(card.values, **process)
     auto, keep_notes = default_free(datasets)
     chosen = list(auto) if free is None else list(free)
     for n in list(chosen) + list(fix):
@@ -71,11 +74,14 @@ def fit_dw_card(card, datasets: list[Dataset], free: list[str] | None = None, fi
     notes += [f"{n} fixed by request" for n in fix]
     fn = wall_functions(card.ir())
     blocks = [wall_block(fn, ds) for ds in datasets]
+    if any(card.values[n] != 0.0 for n in process):
+        notes.append("fitted at the typical process point (corner 0, no Monte Carlo draws); the card's corner and "
+                     "draws are kept as given")
     if start["hz"] != 0.0:
         notes.append("the perpendicular field of each point is the data's (0 without a field column); the card's "
                      "hz is kept as given")
     outcome = fit(specs, start, chosen, blocks, progress=progress)
-    final = dict(outcome.values)
+    final = dict(outcome.values, **{n: card.values[n] for n in process})
     stages = [{"name": "wall velocities", "free": chosen, "nfev": outcome.nfev, "seconds": outcome.seconds}]
     figs = {}
     for name in DW_FIGURES:
