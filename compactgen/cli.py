@@ -184,15 +184,15 @@ def cmd_demo(args) -> int:
 
 
 def _fitted_demo(out: Path) -> list[Path]:
-    """The demo's fit step, when compactgen.calibrate is present: the card fitted to the bundled
-    synthetic data joins the build and verify."""
+    """The demo's fit steps, when compactgen.calibrate is present: the cards fitted to the bundled
+    synthetic data (stt-mtj, dw-mtj) join the build and verify."""
     try:
-        from .calibrate.commands import demo_fit
+        from .calibrate.commands import demo_fits
     except ModuleNotFoundError as exc:
         if exc.name and "compactgen.calibrate.commands".startswith(exc.name):
             return []
         raise
-    return [demo_fit(out / "fit")]
+    return demo_fits(out / "fit")
 
 
 if __name__ == "__main__":
