@@ -7,10 +7,13 @@ Prints, measured in this one run:
    reading, fitting and writing, the number of model evaluations and the time per evaluation,
    with each stage's share;
 2. the same data fitted one measurement type at a time, side by side with the joint fit (ratio);
-3. the domain-wall velocity fit of the example wall files;
-4. with --seeds N: N fresh synthetic data sets from the truth card, fitted from the demo card:
-   the fraction of estimates within 1 and 2 standard errors of the truth (expected ~68 % and ~95 %)
-   and, per parameter, the scatter of the estimates divided by the mean reported standard error.
+3. the domain-wall velocity fit of the example wall files through the dw-mtj card path
+   (examples/dwtrack_demo.toml): building the card's wall equations (ModelIR + lambdify) and the
+   fit, side by side with the stt-mtj fit, and the time per evaluation of both wall files;
+4. with --seeds N: N fresh synthetic data sets from each truth card (stt-mtj and dw-mtj), fitted
+   from the demo card: the fraction of estimates within 1 and 2 standard errors of the truth
+   (expected ~68 % and ~95 %) and, per parameter, the scatter of the estimates divided by the mean
+   reported standard error.
 """
 from __future__ import annotations
 
@@ -21,19 +24,19 @@ from pathlib import Path
 
 import numpy as np
 
-ROOT = Path(__file__).resolve().parent.parent
-
 
 def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--seeds", type=int, default=0, help="coverage study over this many noise seeds")
     args = ap.parse_args()
-    from compactgen.calibrate.commands import DEMO_CARD, DEMO_TRUTH, demo_data_files
+    from compactgen.calibrate.commands import (DEMO_CARD, DEMO_TRUTH, DW_DEMO_CARD, DW_DEMO_TRUTH, demo_data_files,
+                                               dw_demo_data_files)
     from compactgen.calibrate.data import read_all
     from compactgen.calibrate.models import nuisance_from
     from compactgen.calibrate.result import write_fitted_card
-    from compactgen.calibrate.runner import fit_card, fit_wall_data
-    from compactgen.calibrate.synthetic import TRUTH_WALL, make_stt_data
+    from compactgen.calibrate.runner import fit_card
+    from compactgen.calibrate.synthetic import make_stt_data, make_wall_data
+    from compactgen.calibrate.wall import steady_state, wall_functions
     from compactgen.card import load_card
 
     files = demo_data_files()
@@ -68,13 +71,34 @@ def main() -> None:
         print(f" {kind} {dt:.2f} s ({r.nfev} ev., {len(r.free)} free);", end="")
     print(f"\n  joint / sum of separate fits = {(t2 - t1) / sep:.2f}")
 
-    wall_files = sorted((ROOT / "examples" / "data" / "wall").glob("*.csv"))
+    wall_files = dw_demo_data_files()
+    dw_card = load_card(DW_DEMO_CARD)
+    wall_data = read_all(wall_files)
     t = time.perf_counter()
-    o = fit_wall_data(read_all(wall_files), dict(TRUTH_WALL, d_dmi=0.5e-3, theta_sh=0.2, alpha=0.4),
-                      ["d_dmi", "theta_sh", "alpha"])
-    dt = time.perf_counter() - t
-    print(f"wall-velocity fit: {len(wall_files)} files, 3 free, {dt:.2f} s, {o.nfev} evaluations "
-          f"({1e3 * dt / o.nfev:.2f} ms each)")
+    fn = wall_functions(dw_card.ir())
+    t_build = time.perf_counter() - t
+    t = time.perf_counter()
+    dw = fit_card(dw_card, wall_data)
+    t_dw = time.perf_counter() - t
+    t_fit = sum(st["seconds"] for st in dw.stages)
+    print(f"wall-velocity fit (dw-mtj card path): {len(wall_files)} files, {sum(len(d) for d in wall_data)} rows, "
+          f"{len(dw.free)} free ({', '.join(dw.free)})")
+    print(f"  fit_card {t_dw:6.2f} s in all, of which least squares {t_fit:.2f} s ({dw.nfev} evaluations, "
+          f"{1e3 * t_fit / dw.nfev:.2f} ms each); the card's wall equations (ModelIR + lambdify), built alone "
+          f"before it (cold caches): {t_build:.2f} s")
+    reps = 50
+    t = time.perf_counter()
+    for _ in range(reps):
+        for ds in wall_data:
+            steady_state(fn, dw.values, ds.columns["current_density"], ds.columns.get("field", 0.0))
+    per = (time.perf_counter() - t) / reps
+    print(f"  one steady-state evaluation of both files: {1e3 * per:.2f} ms; dw-mtj fit / stt-mtj fit wall time = "
+          f"{t_dw / (t2 - t1):.2f}")
+    truth_dw = load_card(DW_DEMO_TRUTH)
+    print(f"  {'parameter':10s} {'truth':>10s} {'fitted':>10s} {'std. err':>10s} {'(fit-truth)/se':>15s}")
+    for n in dw.free:
+        print(f"  {n:10s} {truth_dw.values[n]:10.5g} {dw.values[n]:10.5g} {dw.stderr[n]:10.3g} "
+              f"{(dw.values[n] - truth_dw.values[n]) / dw.stderr[n]:15.2f}")
 
     if args.seeds:
         truth = load_card(DEMO_TRUTH)
@@ -88,15 +112,28 @@ def main() -> None:
                 est.append([r.values[n] for n in r.free])
                 se.append([r.stderr[n] for n in r.free])
                 z.append([(r.values[n] - tv[n]) / r.stderr[n] for n in r.free])
-        names = r.free
-        z, est, se = np.array(z), np.array(est), np.array(se)
-        print(f"coverage over {args.seeds} seeds ({time.perf_counter() - t:.1f} s): within 1 s.e. "
-              f"{100 * np.mean(np.abs(z) <= 1):.0f} % (expect 68), within 2 s.e. {100 * np.mean(np.abs(z) <= 2):.0f} % "
-              "(expect 95)")
-        print(f"  {'parameter':20s} {'truth':>12s} {'mean fit':>12s} {'mean s.e.':>11s} {'scatter/s.e.':>13s}")
-        for k, n in enumerate(names):
-            print(f"  {n:20s} {tv[n]:12.5g} {est[:, k].mean():12.5g} {se[:, k].mean():11.3g} "
-                  f"{est[:, k].std(ddof=1) / se[:, k].mean():13.2f}")
+        coverage("stt-mtj", args.seeds, time.perf_counter() - t, r.free, tv, z, est, se)
+        z, est, se = [], [], []
+        t = time.perf_counter()
+        with tempfile.TemporaryDirectory() as d:
+            for seed in range(1000, 1000 + args.seeds):
+                fs = make_wall_data(truth_dw, Path(d) / str(seed), seed=seed, fn=fn)  # same expressions, truth values
+                r = fit_card(dw_card, read_all(fs))
+                est.append([r.values[n] for n in r.free])
+                se.append([r.stderr[n] for n in r.free])
+                z.append([(r.values[n] - truth_dw.values[n]) / r.stderr[n] for n in r.free])
+        coverage("dw-mtj", args.seeds, time.perf_counter() - t, r.free, truth_dw.values, z, est, se)
+
+
+def coverage(kind, seeds, seconds, names, tv, z, est, se) -> None:
+    z, est, se = np.array(z), np.array(est), np.array(se)
+    print(f"{kind} coverage over {seeds} seeds ({seconds:.1f} s): within 1 s.e. "
+          f"{100 * np.mean(np.abs(z) <= 1):.0f} % (expect 68), within 2 s.e. {100 * np.mean(np.abs(z) <= 2):.0f} % "
+          "(expect 95)")
+    print(f"  {'parameter':20s} {'truth':>12s} {'mean fit':>12s} {'mean s.e.':>11s} {'scatter/s.e.':>13s}")
+    for k, n in enumerate(names):
+        print(f"  {n:20s} {tv[n]:12.5g} {est[:, k].mean():12.5g} {se[:, k].mean():11.3g} "
+              f"{est[:, k].std(ddof=1) / se[:, k].mean():13.2f}")
 
 
 if __name__ == "__main__":

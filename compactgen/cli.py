@@ -161,6 +161,7 @@ def cmd_demo(args) -> int:
     out = Path(args.output)
     out.mkdir(parents=True, exist_ok=True)
     ok = True
+    thermal_done = False
     runs = {}
     for src in sorted(EXAMPLES.glob("*_demo.toml")) + _fitted_demo(out):
         card_path = out / src.name
@@ -173,7 +174,8 @@ def cmd_demo(args) -> int:
         say(f"built {out / card.name}")
         result = verify_card(card, report=str(out / card.name / "verify.html"), title=f"{card.name}: verification")
         ok &= result.passed
-        if card.kind == "stt-mtj" and os.environ.get("COMPACTGEN_DEMO_THERMAL", "1") != "0":
+        if card.kind == "stt-mtj" and not thermal_done and os.environ.get("COMPACTGEN_DEMO_THERMAL", "1") != "0":
+            thermal_done = True  # once, for the bundled device
             from .thermal_report import demo_thermal
 
             say(f"thermal demo (switching probability, retention, corners): set COMPACTGEN_DEMO_THERMAL=0 to skip")
@@ -185,15 +187,15 @@ def cmd_demo(args) -> int:
 
 
 def _fitted_demo(out: Path) -> list[Path]:
-    """The demo's fit step, when compactgen.calibrate is present: the card fitted to the bundled
-    synthetic data joins the build and verify."""
+    """The demo's fit steps, when compactgen.calibrate is present: the cards fitted to the bundled
+    synthetic data (stt-mtj, dw-mtj) join the build and verify."""
     try:
-        from .calibrate.commands import demo_fit
+        from .calibrate.commands import demo_fits
     except ModuleNotFoundError as exc:
         if exc.name and "compactgen.calibrate.commands".startswith(exc.name):
             return []
         raise
-    return [demo_fit(out / "fit")]
+    return demo_fits(out / "fit")
 
 
 def _demo_release(out: Path, runs: dict) -> bool:

@@ -16,7 +16,8 @@ from scipy import integrate, optimize
 
 from compactgen.calibrate import wall
 from compactgen.calibrate.models import theta_min
-from compactgen.physics import coercivity, switching, switching_probability, thermal, wall_motion
+from compactgen.devices import get_kind
+from compactgen.physics import coercivity, domain_wall, switching, switching_probability, thermal
 from compactgen.physics.constants import const_values
 
 MU0 = C.mu_0
@@ -29,65 +30,59 @@ def num(expr) -> float:
     return float(sp.lambdify([], sp.sympify(expr).xreplace(const_values()), modules=["scipy", "numpy"])())
 
 
-# REF free layer of PHYSICS 0 with t_F = 1 nm: K_u = 1e6 J/m^3 -> K_eff = 3.716815e5 J/m^3
-TRACK = {"ms": 1e6, "t_free": 1e-9, "ki": 1e-3, "kb": 0.0, "a_ex": 15e-12, "d_dmi": 1e-3, "alpha": 0.3,
-         "theta_sh": 0.1}
+# PHYSICS 6 inputs on a dw-mtj card: the REF free layer with t_F = 1 nm (K_u = 1e6 J/m^3 ->
+# K_eff = 3.716815e5 J/m^3), A = 15 pJ/m, D = 1 mJ/m^2, alpha = 0.3, theta_SH = 0.1
+TRACK = dict(ms=1e6, t_free=1e-9, ki=1e-3, kb=0.0, a_ex=15e-12, dmi=1e-3, alpha=0.3, theta_sh=0.1, xi_sot=0.0,
+             hx=0.0, hy=0.0, hz=0.0, track_length=2e-6, track_width=50e-9, mtj_start=900e-9, mtj_length=100e-9,
+             j_max=2e13)
 
 
-def test_static_wall_check_6_1():
-    """PHYSICS CHECK 6.1 (wall width, Tarasenko N_x, H_K, H_D; Thiaville et al., EPL 100, 57002 (2012))."""
-    keff = 3.716815e5
-    width = num(wall_motion.wall_width(15e-12, keff))
-    assert width == pytest.approx(math.sqrt(15e-12 / keff), rel=1e-12)
-    assert width == pytest.approx(6.352727e-9, rel=1e-6)
-    nx = num(wall_motion.wall_demag_factor(1e-9, width))
-    assert nx == pytest.approx(0.034731, rel=2e-5)  # 5 significant digits in PHYSICS
-    assert num(wall_motion.wall_shape_field(1e6, nx)) == pytest.approx(3.473085e4, rel=1e-6)
-    h_d = num(wall_motion.dmi_field(1e-3, 1e6, width))
-    assert h_d == pytest.approx(1e-3 / (MU0 * 1e6 * width), rel=1e-12)
-    assert h_d == pytest.approx(1.252651e5, rel=1e-6)
-    # the track model derives the same numbers from (ms, t_free, ki, kb, a_ex, d_dmi)
-    m = wall.material(TRACK)
-    assert m["keff"] == pytest.approx(keff, rel=1e-6)
-    assert m["width"] == pytest.approx(6.352727e-9, rel=1e-6)
-    assert m["h_k"] == pytest.approx(3.473085e4, rel=1e-6)
-    assert m["h_d"] == pytest.approx(1.252651e5, rel=1e-6)
+@pytest.fixture(scope="module")
+def track():
+    """The fit's wall model: the steady state of a dw-mtj card's own wall equations (its ModelIR)."""
+    kind = get_kind("dw-mtj")
+    vals = kind.table().defaults()
+    vals.update(TRACK)
+    return wall.wall_functions(kind.build_ir("track", vals, {})), vals
 
 
-def test_field_driven_schryer_walker_check_6_3a():
-    """PHYSICS CHECK 6.3a: D = 0, alpha = 0.3 (N. L. Schryer and L. R. Walker, J. Appl. Phys. 45, 5406 (1974))."""
-    vals = dict(TRACK, d_dmi=0.0)
-    m = wall.material(vals)
-    h_w = num(wall_motion.walker_field(0.3, m["h_k"]))
-    assert h_w == pytest.approx(5.209628e3, rel=1e-6)
-    assert h_w * MU0 * 1e3 == pytest.approx(6.5466, abs=1e-4)
-    v_w = num(wall_motion.field_velocity_steady(h_w, 1, 0.3, m["width"]))
-    assert v_w == pytest.approx(GAMMA0 * m["width"] * h_w / 0.3, rel=1e-12)
-    assert v_w == pytest.approx(24.410698, rel=1e-6)
-    assert num(wall_motion.field_velocity_steady(0.9 * h_w, 1, 0.3, m["width"])) == pytest.approx(21.969628, rel=1e-6)
-    v2 = num(wall_motion.field_velocity_precessional(2 * h_w, 1, 0.3, m["width"], h_w))
-    assert v2 == pytest.approx(10.031883, rel=1e-5)
-    # the numerical steady state / precession average reproduces both branches
-    v, phi, steady = wall.steady_state(vals, 0.0, np.array([0.9 * h_w, 2 * h_w]))
+def test_static_wall_check_6_1(track):
+    """PHYSICS CHECK 6.1 (wall width, Tarasenko N_x, H_K, H_D; Thiaville et al., EPL 100, 57002 (2012)) from the
+    card's derived quantities, the ones the fit's velocity model uses."""
+    fn, vals = track
+    m = wall.material(fn, vals)
+    assert m["keff"] == pytest.approx(1.0e6 - MU0 * 1e12 / 2, rel=1e-9)
+    assert m["keff"] == pytest.approx(3.716815e5, rel=1e-6)
+    assert m["wall_width"] == pytest.approx(6.352727e-9, rel=1e-6)
+    assert m["h_kwall"] == pytest.approx(3.473085e4, rel=1e-6)
+    assert m["h_dmi"] == pytest.approx(1.252651e5, rel=1e-6)
+    assert m["h_dmi"] == pytest.approx(1e-3 / (MU0 * 1e6 * m["wall_width"]), rel=1e-9)
+
+
+def test_field_driven_schryer_walker_check_6_3a(track):
+    """PHYSICS CHECK 6.3a: D = 0, alpha = 0.3, H_W = 5.209628e3 A/m (N. L. Schryer and L. R. Walker, J. Appl.
+    Phys. 45, 5406 (1974)): the steady state below H_W and the precession average above it."""
+    fn, vals = track
+    vals = dict(vals, dmi=0.0)
+    h_w = 5.209628e3
+    v, phi, steady = wall.steady_state(fn, vals, 0.0, np.array([0.9 * h_w, 2 * h_w]))
     assert steady.tolist() == [True, False]
     assert v[0] == pytest.approx(21.969628, rel=1e-6)
+    assert v[0] == pytest.approx(GAMMA0 * 6.352727e-9 * 0.9 * h_w / 0.3, rel=1e-6)
     assert v[1] == pytest.approx(10.031883, rel=1e-5)
     # both walls move oppositely under a field
-    v_down, _, _ = wall.steady_state(vals, 0.0, 0.9 * h_w, q=-1)
+    v_down, _, _ = wall.steady_state(fn, vals, 0.0, 0.9 * h_w, q=-1)
     assert float(v_down) == pytest.approx(-21.969628, rel=1e-6)
 
 
-def test_dmi_velocity_and_walker_field_checks_6_3b_c():
-    """PHYSICS CHECK 6.3b (v_D = (pi/2) gamma_e D / Ms) and 6.3c (Walker field with DMI)."""
-    v_d = num(wall_motion.dmi_velocity(1e-3, 1e6))
-    assert v_d == pytest.approx(math.pi / 2 * GAMMA0 / MU0 * 1e-3 / 1e6, rel=1e-12)
-    assert v_d == pytest.approx(276.5952, rel=1e-6)
-    # exact DMI Walker field: the largest H_z with a steady state
-    steady_at = lambda h: bool(wall.steady_state(TRACK, 0.0, h)[2])  # noqa: E731
+def test_dmi_walker_field_check_6_3c(track):
+    """PHYSICS CHECK 6.3c: the exact Walker field with DMI (largest H_z with a steady state), alpha = 0.3:
+    5.991639e4 A/m, against (pi/2) alpha H_D = 5.902977e4 A/m (Thiaville et al. 2012)."""
+    fn, vals = track
+    steady_at = lambda h: bool(wall.steady_state(fn, vals, 0.0, h)[2])  # noqa: E731
     h_w = optimize.brentq(lambda h: 0.5 - steady_at(h), 5.0e4, 7.0e4, xtol=1.0)
     assert h_w == pytest.approx(5.991639e4, rel=1e-4)
-    m = wall.material(TRACK)
-    assert math.pi / 2 * 0.3 * m["h_d"] == pytest.approx(5.902977e4, rel=1e-6)
+    assert math.pi / 2 * 0.3 * wall.material(fn, vals)["h_dmi"] == pytest.approx(5.902977e4, rel=1e-6)
 
 
 # PHYSICS CHECK 6.3d: J, speed closed form (H_K = 0), speed with H_K (root = ODE), steady angle
@@ -101,33 +96,44 @@ CHECK_6_3D = [
 ]
 
 
-def test_sot_steady_state_check_6_3d():
+def test_sot_steady_state_check_6_3d(track):
     """PHYSICS CHECK 6.3d, SOT-driven Neel wall (Q = +1, our signs give v < 0): E. Martinez et al.,
-    J. Appl. Phys. 115, 213909 (2014) for the model; numbers re-derived in PHYSICS."""
-    m = wall.material(TRACK)
+    J. Appl. Phys. 115, 213909 (2014) for the model; numbers re-derived in PHYSICS.  Both walls move alike."""
+    fn, vals = track
     j = np.array([c[0] for c in CHECK_6_3D])
-    h_sh = HBAR * 0.1 * j / (2 * QE * MU0 * 1e6 * 1e-9)
-    assert h_sh[0] == pytest.approx(2.61894e3, rel=2e-6)
-    closed = [num(wall_motion.sot_velocity_without_hk(h, 0.3, m["width"], m["h_d"])) for h in h_sh]
-    v, phi, steady = wall.steady_state(TRACK, j)
+    v, phi, steady = wall.steady_state(fn, vals, j)
     assert steady.all()
-    for k, (_, v_closed, v_hk, phi_ss) in enumerate(CHECK_6_3D):
-        assert closed[k] == pytest.approx(-v_closed, rel=1e-5)
+    for k, (_, _, v_hk, phi_ss) in enumerate(CHECK_6_3D):
         assert v[k] == pytest.approx(-v_hk, rel=1e-5)
         assert (phi[k] % (2 * math.pi)) == pytest.approx(phi_ss, abs=1e-4)
-    # with H_K = 0 the root of the angle equation (wall_angle_rate) reproduces the closed form
-    phi_s = sp.Symbol("phi", real=True)
-    c = const_values()
-    for k, h in enumerate(h_sh):
-        rate = sp.lambdify(phi_s, wall_motion.wall_angle_rate(phi_s, 1, 0.3, 0, h, 0, m["h_d"]).xreplace(c))
-        vel = sp.lambdify(phi_s, wall_motion.wall_velocity(phi_s, 1, 0.3, m["width"], 0, h, 0, m["h_d"]).xreplace(c))
-        root = optimize.brentq(rate, math.pi / 2 + 1e-9, math.pi, xtol=1e-15)
-        assert vel(root) == pytest.approx(closed[k], rel=1e-9)
-    # down-up wall: same direction under SOT
-    v_q, _, _ = wall.steady_state(TRACK, j, q=-1)
+    v_q, _, _ = wall.steady_state(fn, vals, j, q=-1)
     assert np.allclose(v_q, v, rtol=1e-9)
-    j_half = num(wall_motion.sot_half_saturation_current(0.3, 1e-9, 1e-3, 0.1, m["width"]))
-    assert j_half == pytest.approx(1.434912e12, rel=1e-6)
+
+
+def test_wall_model_with_every_drive_against_the_physics_blocks(track):
+    """Current, perpendicular and in-plane fields and a field-like torque together, for both walls: the steady
+    state of the card's equations (and for Q = -1 the phi -> phi + pi, q -> -q symmetry it uses) against the
+    physics blocks with the wall charge written in (physics.domain_wall, PHYSICS 6.2), integrated in time from
+    the rest angle by scipy's solve_ivp until the angle settles.  H_SH from scipy.constants (PHYSICS 1.4)."""
+    fn, vals = track
+    vals = dict(vals, hx=1.2e4, hy=-6e3, xi_sot=0.3)
+    m = wall.material(fn, vals)
+    j, hz = 4e11, 1.5e4
+    h_sh = HBAR * vals["theta_sh"] * j / (2 * QE * MU0 * vals["ms"] * vals["t_free"])
+    phi = sp.Symbol("phi", real=True)
+    c = const_values()
+    for charge in (1, -1):
+        a, b = domain_wall.drive_terms(phi, hz, h_sh, 0.0, m["h_kwall"], m["h_dmi"], vals["hx"], vals["hy"],
+                                       vals["xi_sot"] * h_sh, charge)
+        qd, pd = domain_wall.wall_rates(a, b, vals["alpha"], m["wall_width"], charge)
+        fq, fp = (sp.lambdify(phi, sp.sympify(e).xreplace(c)) for e in (qd, pd))
+        phi0 = num(domain_wall.rest_angle(m["h_kwall"], m["h_dmi"], vals["hx"], charge))
+        sol = integrate.solve_ivp(lambda t, y: [fp(y[0])], (0, 20e-9), [phi0], rtol=1e-11, atol=1e-13)
+        assert abs(fp(sol.y[0, -1])) < 1e-6 * abs(fp(phi0))  # settled
+        v, phi_ss, steady = wall.steady_state(fn, vals, j, hz, q=charge)
+        assert bool(steady)
+        assert float(v) == pytest.approx(fq(sol.y[0, -1]), rel=1e-7)
+        assert float(phi_ss) % (2 * math.pi) == pytest.approx(sol.y[0, -1] % (2 * math.pi), abs=1e-6)
 
 
 def test_thermally_activated_switching_field():

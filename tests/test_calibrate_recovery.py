@@ -1,6 +1,6 @@
-"""Parameter recovery on the bundled synthetic data, the domain-wall model, and `compactgen fit`
+"""Parameter recovery on the bundled synthetic data (stt-mtj and dw-mtj cards), and `compactgen fit`
 end to end: the fitted card is valid, carries uncertainties and provenance, builds, and the
-input card is never overwritten."""
+input card is never overwritten; data of the wrong type for a card kind are refused."""
 from __future__ import annotations
 
 import hashlib
@@ -12,12 +12,14 @@ import numpy as np
 import pytest
 
 from compactgen.build import build_files
-from compactgen.calibrate.commands import demo_data_files, run_fit
+from scipy import constants as C
+
+from compactgen.calibrate import dw_fit
+from compactgen.calibrate.commands import demo_data_files, dw_demo_data_files, run_fit
 from compactgen.calibrate.data import read_all, read_dataset
 from compactgen.calibrate.models import nuisance_from
-from compactgen.calibrate.runner import fit_card, fit_wall_data
-from compactgen.calibrate.synthetic import TRUTH_WALL, make_wall_data
-from compactgen.calibrate.wall import wall_specs
+from compactgen.calibrate.runner import fit_card
+from compactgen.calibrate.synthetic import make_wall_data
 from compactgen.card import load_card
 from compactgen.cli import main
 from compactgen.errors import DataError, InputError
@@ -25,6 +27,8 @@ from compactgen.errors import DataError, InputError
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 DEMO = EXAMPLES / "pmtj35_demo.toml"
 TRUTH = EXAMPLES / "data" / "truth_pmtj35.toml"
+DW_DEMO = EXAMPLES / "dwtrack_demo.toml"
+DW_TRUTH = EXAMPLES / "data" / "truth_dwtrack.toml"
 
 
 @pytest.fixture(scope="module")
@@ -113,23 +117,104 @@ def test_free_and_fix_choices(tmp_path):
         fit_card(card, [rv], free=["diameter"])
 
 
-def test_wall_velocity_recovery(tmp_path):
-    """Rigid-wall steady state (PHYSICS 6.3) fitted to synthetic velocities versus current density and
-    versus field: D, theta_SH and alpha come back within two standard errors, from a distant start."""
-    files = make_wall_data(tmp_path, seed=11)
-    start = dict(TRUTH_WALL, d_dmi=0.5e-3, theta_sh=0.2, alpha=0.4)
-    out = fit_wall_data(read_all(files), start, ["d_dmi", "theta_sh", "alpha"])
-    assert out.success
-    for n in ("d_dmi", "theta_sh", "alpha"):
-        assert abs(out.values[n] - TRUTH_WALL[n]) <= 2 * out.stderr[n], (n, out.values[n], out.stderr[n])
-        assert out.stderr[n] < 0.05 * abs(TRUTH_WALL[n])
-    # a device kind with its own parameter names maps them
-    names = {"d_dmi": "dmi", "theta_sh": "spin_hall_angle"}
-    specs = {names.get(k, k): s for k, s in wall_specs().items()}
-    vals = {names.get(k, k): v for k, v in start.items()}
-    out2 = fit_wall_data(read_all(files), vals, ["dmi", "spin_hall_angle", "alpha"], specs=specs, names=names)
-    assert out2.values["dmi"] == pytest.approx(out.values["d_dmi"], rel=1e-6)
-    assert np.isfinite(out2.stderr["spin_hall_angle"])
+@pytest.fixture(scope="module")
+def dw_fit_result():
+    return fit_card(load_card(DW_DEMO), read_all(dw_demo_data_files()))
+
+
+def test_dw_card_recovers_the_track_truth(dw_fit_result, tmp_path):
+    """The dw-mtj card path: the synthetic wall velocities of examples/data/wall (made from the truth card
+    truth_dwtrack.toml) fitted to the demo card.  dmi, theta_sh and alpha come back within two standard errors
+    from a start many standard errors away; the DMI saturation speed v_D = (pi/2) gamma_e D/Ms (A. Thiaville
+    et al., EPL 100, 57002 (2012)), computed here with scipy.constants, matches the fitted figure."""
+    truth = load_card(DW_TRUTH)
+    cf = dw_fit_result
+    assert truth.kind == "dw-mtj" and cf.card.kind == "dw-mtj"
+    assert cf.outcome.success and cf.outcome.warnings == []
+    assert cf.free == ["dmi", "theta_sh", "alpha"]
+    for n in cf.free:
+        se = cf.stderr[n]
+        assert 0 < se < 0.05 * abs(truth.values[n]), (n, se)
+        assert abs(cf.values[n] - truth.values[n]) <= 2 * se, (n, cf.values[n], truth.values[n], se)
+        assert abs(cf.start[n] - truth.values[n]) > 5 * se, n
+    # what wall velocities cannot separate is the truth's in the demo card, and stays as given
+    for n in ("ms", "t_free", "ki", "kb", "a_ex", "xi_sot", "h_dep"):
+        assert cf.values[n] == cf.card.values[n] == truth.values[n], n
+    assert any(n.startswith("ms, ki, kb, a_ex, t_free kept") for n in cf.fixed_notes)
+    gamma_e = abs(C.physical_constants["electron gyromag. ratio"][0])
+    _, v_d, se, unit, _ = cf.figures["v_dmi"]
+    assert unit == "m/s"
+    assert v_d == pytest.approx(math.pi / 2 * gamma_e * cf.values["dmi"] / cf.values["ms"], rel=1e-9)
+    assert abs(v_d - math.pi / 2 * gamma_e * truth.values["dmi"] / truth.values["ms"]) <= 2 * se
+    # the bundled files are labelled synthetic and are reproduced byte for byte from the truth card (dw-mtj names)
+    files = dw_demo_data_files()
+    assert all("synthetic" in read_dataset(f).meta and "truth_dwtrack.toml" in read_dataset(f).meta["synthetic"]
+               for f in files)
+    again = make_wall_data(truth, tmp_path, seed=2026, source="examples/data/truth_dwtrack.toml")
+    assert [p.read_bytes() for p in again] == [f.read_bytes() for f in files]
+    # points the card's pinning would hold are flagged (here: a card with a 40 mT depinning field)
+    warn = dw_fit._pinning_warnings(cf.blocks, dict(cf.values, h_dep=40e-3 / C.mu_0))
+    assert len(warn) == 2 and all("below the card's depinning threshold" in w for w in warn)
+    assert "wall_velocity_field.csv: wall velocity: 5 point(s)" in " ".join(warn)  # 12..36 mT
+
+
+def test_dw_default_free_and_bad_choices():
+    """Current sweeps alone fix theta_sh/alpha only (alpha kept); field sweeps free alpha.  Parameters the wall
+    velocities do not inform are refused before any model is built."""
+    current, field = (read_dataset(f) for f in dw_demo_data_files())
+    free, notes = dw_fit.default_free([current])
+    assert free == ["dmi", "theta_sh"] and any(n.startswith("alpha kept") for n in notes)
+    assert dw_fit.default_free([current, field])[0] == ["dmi", "theta_sh", "alpha"]
+    card = load_card(DW_DEMO)
+    with pytest.raises(InputError, match="track_length cannot be fitted to wall velocities"):
+        fit_card(card, [current], free=["track_length"])
+    with pytest.raises(InputError, match="unknown parameter 'ra_x'"):
+        fit_card(card, [current], free=["ra_x"])
+
+
+def test_dw_fit_command(dw_fit_result, tmp_path):
+    """`compactgen fit examples/dwtrack_demo.toml <wall files> -o fitted.toml`: a valid dw-mtj card with the
+    fitted values, their standard errors, provenance listing the dw-mtj parameters kept, and a report with the
+    recovered-versus-true table; the fitted card builds."""
+    out = tmp_path / "fitted.toml"
+    report = tmp_path / "report.html"
+    files = dw_demo_data_files()
+    rc = main(["fit", str(DW_DEMO), *map(str, files), "-o", str(out), "--report", str(report),
+               "--truth", str(DW_TRUTH)])
+    assert rc == 0
+    card = load_card(out)
+    assert card.kind == "dw-mtj" and card.name == "dwtrack_demo_fit"
+    assert set(card.uncertainty) == {"dmi", "theta_sh", "alpha"}
+    for n, se in card.uncertainty.items():
+        assert se == pytest.approx(dw_fit_result.stderr[n], rel=1e-3)
+        assert card.values[n] == pytest.approx(dw_fit_result.values[n], rel=1e-6)
+    prov = tomllib.loads(out.read_text())["provenance"]
+    assert prov["free"] == ["dmi", "theta_sh", "alpha"] and prov["kept"] == ["a_ex", "ki", "ms", "xi_sot"]
+    assert {d["sha256"] for d in prov["data"]} == {hashlib.sha256(p.read_bytes()).hexdigest() for p in files}
+    assert {d["measurement"] for d in prov["data"]} == {"wall-velocity"} and "nuisance" not in prov
+    html = report.read_text()
+    assert "within 2 s.e." in html and html.count("data:image/png;base64") >= 3
+    assert "module dwtrack_demo_fit" in build_files(card)["dwtrack_demo_fit.va"]
+
+
+def test_wrong_data_type_for_the_card_kind(tmp_path, capsys):
+    """R-H loops given to a dw-mtj card, wall velocities to an stt-mtj card: one error line naming the file and
+    what the kind accepts; nothing written."""
+    out = tmp_path / "never.toml"
+    rh = EXAMPLES / "data" / "rh_loops_slow.csv"
+    wall = dw_demo_data_files()[0]
+    cases = ((DW_DEMO, rh, "resistance-field data cannot be fitted to a card of kind dw-mtj (it accepts "
+                           "wall-velocity)"),
+             (DEMO, wall, "wall-velocity data cannot be fitted to a card of kind stt-mtj (it accepts resistance-bias, "
+                          "resistance-field, switching)"))
+    for card, data, msg in cases:
+        capsys.readouterr()
+        assert main(["fit", str(card), str(data), "-o", str(out)]) == DataError.exit_status
+        err = [ln for ln in capsys.readouterr().err.splitlines() if "error" in ln]
+        assert err == [f"compactgen fit: error: {data}: {msg}"]
+        assert not out.exists()
+    assert main(["fit", str(EXAMPLES / "sot50_demo.toml"), str(wall), "-o", str(out)]) == InputError.exit_status
+    assert "kind 'sot-mtj' is not wired yet (supported: stt-mtj, dw-mtj)" in capsys.readouterr().err
 
 
 def _rewrite(src: Path, dst: Path, header: str, rows, meta_extra: str = "") -> Path:

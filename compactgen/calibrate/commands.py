@@ -11,10 +11,12 @@ EXAMPLES = Path(__file__).resolve().parent.parent.parent / "examples"
 DEMO_CARD = EXAMPLES / "pmtj35_demo.toml"
 DEMO_DATA = EXAMPLES / "data"
 DEMO_TRUTH = DEMO_DATA / "truth_pmtj35.toml"
+DW_DEMO_CARD = EXAMPLES / "dwtrack_demo.toml"
+DW_DEMO_TRUTH = DEMO_DATA / "truth_dwtrack.toml"
 
 
 def add_commands(sub) -> None:
-    p = sub.add_parser("fit", help="re-fit a card to measured data (R-H, R-V, switching counts)",
+    p = sub.add_parser("fit", help="re-fit a card to measured data (R-H, R-V, switching counts; wall velocities)",
                        description="Fit the parameters of CARD to the measured DATA files (CSV with units in the "
                                    "header) and write a new card with standard errors and provenance.")
     p.add_argument("card", help="the card to start from (never overwritten)")
@@ -142,3 +144,18 @@ def demo_fit(out_dir) -> Path:
     path, _ = run_fit(DEMO_CARD, demo_data_files(), out / "pmtj35_fit.toml", report=out / "fit_report.html",
                       name="pmtj35_fit", truth=DEMO_TRUTH, force=True)
     return path
+
+
+def dw_demo_data_files() -> list[Path]:
+    return sorted((DEMO_DATA / "wall").glob("*.csv"))
+
+
+def demo_fits(out_dir) -> list[Path]:
+    """The demo's fit steps: ``demo_fit`` (stt-mtj), then the wall-velocity files examples/data/wall/*.csv
+    (synthetic, from examples/data/truth_dwtrack.toml) fitted to examples/dwtrack_demo.toml, written to
+    OUT/dwtrack_fit.toml and OUT/dwtrack_fit_report.html; returns both fitted cards' paths."""
+    out = Path(out_dir)
+    paths = [demo_fit(out)]
+    path, _ = run_fit(DW_DEMO_CARD, dw_demo_data_files(), out / "dwtrack_fit.toml",
+                      report=out / "dwtrack_fit_report.html", name="dwtrack_fit", truth=DW_DEMO_TRUTH, force=True)
+    return paths + [path]

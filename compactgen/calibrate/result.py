@@ -11,7 +11,7 @@ from pathlib import Path
 from .. import __version__
 from ..card import card_text, parse_card
 from ..errors import InputError
-from .models import NUISANCE_SPECS, STT_FITTABLE
+from .models import NUISANCE_SPECS
 from .runner import CardFit
 
 METHOD = ("joint maximum likelihood (scipy.optimize.least_squares, trust-region reflective): Gaussian "
@@ -33,7 +33,7 @@ def provenance(cf: CardFit, date: str | None = None) -> dict:
         "fitted_from_sha256": card.sha256(),
         "method": METHOD,
         "free": list(cf.free),
-        "kept": [n for n in (*STT_FITTABLE, *NUISANCE_SPECS) if n not in cf.free],
+        "kept": [n for n in cf.fittable if n not in cf.free],
         "model_evaluations": int(cf.nfev),
         "converged": bool(o.success),
         "notes": list(cf.fixed_notes),
@@ -49,6 +49,9 @@ def provenance(cf: CardFit, date: str | None = None) -> dict:
                               ("chi_square" if s.kind == "gaussian" else "deviance"): round(s.statistic, 4),
                               "dof": round(s.dof, 3), "p_value": float(f"{s.p_value:.4g}")} for s in o.stats},
     }
+    for key in ("nuisance", "nuisance_uncertainty"):  # a kind without data-only parameters (dw-mtj)
+        if not prov[key]:
+            del prov[key]
     return prov
 
 
@@ -59,7 +62,7 @@ def fitted_card_text(cf: CardFit, name: str | None = None, date: str | None = No
            if n in card.values and math.isfinite(cf.outcome.stderr.get(n, math.nan))}
     given = set(card.given) | {n for n in cf.free if n in card.values}
     for key in ("diameter", "tnom"):
-        if cf.card_values[key] != card.values[key] or key in card.given:
+        if (key in card.values and cf.card_values[key] != card.values[key]) or key in card.given:
             given.add(key)
     header = (f"FITTED by `compactgen fit` from {card.path.name if card.path else card.name} and "
               f"{len(cf.datasets)} data file(s) ({', '.join(ds.name for ds in cf.datasets)}).\n"

@@ -15,6 +15,8 @@ data (otherwise I_c0 fixes only alpha/eta and eta is fitted); offset_field only 
 Never fitted: diameter (taken from the data files, which must agree), t_free, kb, the
 demagnetising factor (recomputed from the diameter), fields, limits; tnom becomes the data
 temperature (the model has no temperature dependence of Ms, K, TMR: one temperature per fit).
+
+A dw-mtj card takes wall-velocity files; ``calibrate.dw_fit`` decides what they determine.
 """
 from __future__ import annotations
 
@@ -45,6 +47,7 @@ class CardFit:
     figures: dict[str, tuple[float, float, float, str, str]]  # name -> (before, after, stderr, unit, meaning)
     blocks: list[Block]
     stages: list[dict] = field(default_factory=list)
+    fittable: tuple[str, ...] = (*STT_FITTABLE, *NUISANCE_SPECS)  # what this card kind's fit may free
 
     @property
     def card_values(self) -> dict[str, float]:
@@ -52,7 +55,7 @@ class CardFit:
 
     @property
     def nuisance(self) -> dict[str, float]:
-        return {k: self.values[k] for k in NUISANCE_SPECS}
+        return {k: self.values[k] for k in NUISANCE_SPECS if k in self.values}
 
     @property
     def stderr(self) -> dict[str, float]:
@@ -129,14 +132,30 @@ def default_free(fn, datasets: list[Dataset], blocks: list[Block], values: dict[
     return out, notes
 
 
-def fit_card(card, datasets: list[Dataset], free: list[str] | None = None, fix: list[str] = (),
-             progress=None) -> CardFit:
-    """Fit ``card`` (kind stt-mtj) to ``datasets``; ``free``/``fix`` override the default choice."""
-    if card.kind != "stt-mtj":
-        raise InputError(f"fitting a card of kind {card.kind!r} is not wired yet (supported: stt-mtj); the "
-                         "wall-velocity model is in compactgen.calibrate.models.wall_block")
+#: measurement types each card kind can be fitted to
+ACCEPTS = {"stt-mtj": ("resistance-bias", "resistance-field", "switching"), "dw-mtj": ("wall-velocity",)}
+
+
+def check_data_kinds(card, datasets: list[Dataset]) -> None:
+    """A card kind the fit knows and data files of types that kind accepts (one-line errors)."""
+    if card.kind not in ACCEPTS:
+        raise InputError(f"fitting a card of kind {card.kind!r} is not wired yet (supported: {', '.join(ACCEPTS)})")
     if not datasets:
         raise InputError("no data files to fit")
+    for ds in datasets:
+        if ds.kind not in ACCEPTS[card.kind]:
+            raise DataError(f"{ds.path}: {ds.kind} data cannot be fitted to a card of kind {card.kind} (it accepts "
+                            f"{', '.join(ACCEPTS[card.kind])})")
+
+
+def fit_card(card, datasets: list[Dataset], free: list[str] | None = None, fix: list[str] = (),
+             progress=None) -> CardFit:
+    """Fit ``card`` (kind stt-mtj or dw-mtj) to ``datasets``; ``free``/``fix`` override the default choice."""
+    check_data_kinds(card, datasets)
+    if card.kind == "dw-mtj":
+        from .dw_fit import fit_dw_card
+
+        return fit_dw_card(card, datasets, free=free, fix=fix, progress=progress)
     start, notes = prepare_values(card, datasets)
     work = card.with_values({k: start[k] for k in card.values})
     fn = stt_functions(work)
@@ -217,24 +236,3 @@ def _figures(fn, before: dict, after: dict, outcome: FitOutcome):
         val, se = outcome.propagate(lambda v, f=f: np.asarray(f(v), float))
         out[name] = (float(f(before)), float(val), float(se), unit, desc)
     return out
-
-
-def fit_wall_data(datasets: list[Dataset], values: dict[str, float], free: list[str],
-                  specs: dict[str, ParamSpec] | None = None, names: dict[str, str] | None = None,
-                  progress=None) -> FitOutcome:
-    """Fit domain-wall velocity files (any number, sharing parameters) on a parameter dictionary.
-
-    ``specs`` default to ``calibrate.wall.WALL_SPECS``; ``names`` maps the wall model's names
-    (ms, t_free, ki, kb, a_ex, d_dmi, alpha, theta_sh) to a device kind's own parameter names.
-    """
-    from .models import wall_block
-    from .wall import wall_specs
-
-    names = names or {}
-    if specs is None:
-        specs = {names.get(k, k): s for k, s in wall_specs().items()}
-    bad = [ds for ds in datasets if ds.kind != "wall-velocity"]
-    if bad:
-        raise DataError(f"{bad[0].path}: a {bad[0].kind} file in a wall-velocity fit")
-    blocks = [wall_block(ds, names) for ds in datasets]
-    return fit(specs, values, free, blocks, progress=progress)

@@ -12,7 +12,8 @@ not from the closed forms the fit uses:
   tau0 exp[Delta (1 - i)^n]; above I_c0 a Boltzmann start angle (density
   2 Delta theta exp(-Delta theta^2)) and the exact macrospin time to the equator
   tau_prec * switching_integral(i, theta0).  The counts are therefore binomial.
-- wall velocity: the rigid-wall steady state with relative and absolute scatter.
+- wall velocity: the steady wall speed of the truth card's own 1D wall equations (flow
+  regime, pinning off; ``calibrate.wall``), with relative and absolute scatter.
 """
 from __future__ import annotations
 
@@ -26,16 +27,12 @@ from scipy.optimize import brentq
 from ..constants import MU0
 from ..physics import coercivity
 from .models import nuisance_from, stt_functions
-from .wall import steady_state
+from .wall import steady_state, wall_functions
 
 MT = 1e-3 / MU0  # A/m per mT
 
 #: nuisance values of the demo truth (not card parameters)
 TRUTH_NUISANCE = {"attempt_time": 1e-9, "activation_exponent": 2.0, "offset_field": -8 * MT}
-
-#: the demo domain-wall track (names of calibrate.wall.WALL_SPECS)
-TRUTH_WALL = {"ms": 1.0e6, "t_free": 0.9e-9, "ki": 1.0e-3, "kb": 0.0, "a_ex": 15e-12, "d_dmi": 0.8e-3,
-              "alpha": 0.25, "theta_sh": 0.12}
 
 
 def _write(path: Path, meta: list[tuple[str, str]], header: list[str], rows: list[list[str]]) -> Path:
@@ -138,23 +135,28 @@ def make_stt_data(card, out_dir, seed: int = 1, nuisance: dict | None = None, so
     return files
 
 
-def make_wall_data(out_dir, seed: int = 1, values: dict | None = None, rel_noise: float = 0.04,
-                   abs_noise: float = 1.0, prefix: str = "") -> list[Path]:
-    """Wall velocity versus current density, and versus perpendicular field at zero current."""
+def make_wall_data(card, out_dir, seed: int = 1, source: str = "", rel_noise: float = 0.04,
+                   abs_noise: float = 1.0, prefix: str = "", fn=None) -> list[Path]:
+    """Wall velocity of a dw-mtj ``card`` versus current density (no field), and versus
+    perpendicular field at zero current (up -> down wall): the flow regime, above the card's
+    depinning thresholds, up to the card's j_max."""
     rng = np.random.default_rng(seed)
-    vals = dict(TRUTH_WALL, **(values or {}))
     out = Path(out_dir)
-    label = _label("the track values TRUTH_WALL in compactgen/calibrate/synthetic.py", seed)
+    fn = fn or wall_functions(card.ir())
+    values = card.values
+    label = _label(f"{source or 'card ' + card.name} (the steady wall speed of its 1D wall equations, pinning off)",
+                   seed)
     common = [("synthetic", label), ("device", "T03 track (demo scenario)"), ("temperature", "27 degC")]
     files = []
-    j_cm2 = np.concatenate([-np.array([3e8, 1e8]), np.linspace(0.1e8, 4e8, 16)])
-    v, _, _ = steady_state(vals, j_cm2 * 1e4)
+    j_max_cm2 = values["j_max"] * 1e-4
+    j_cm2 = np.round(np.concatenate([-np.array([1.0, 0.5]) * j_max_cm2, np.linspace(0.0, j_max_cm2, 16)[1:]]), -5)
+    v, _, _ = steady_state(fn, values, j_cm2 * 1e4)
     v = v * (1 + rel_noise * rng.standard_normal(v.size)) + abs_noise * rng.standard_normal(v.size)
     rows = [[f"{j:.4g}", f"{x:.3f}"] for j, x in zip(j_cm2, v)]
     files.append(_write(out / f"{prefix}wall_velocity_current.csv", common,
                         ["current_density [A/cm^2]", "velocity [m/s]"], rows))
-    h_mt = np.linspace(2.0, 80.0, 20)
-    v, _, _ = steady_state(vals, 0.0, h_mt * MT, q=1)
+    h_mt = np.round(np.linspace(12.0, 120.0, 19), 3)
+    v, _, _ = steady_state(fn, values, 0.0, h_mt * MT, q=1)
     v = v * (1 + rel_noise * rng.standard_normal(v.size)) + abs_noise * rng.standard_normal(v.size)
     rows = [["0", f"{h:.4g}", f"{x:.3f}"] for h, x in zip(h_mt, v)]
     files.append(_write(out / f"{prefix}wall_velocity_field.csv", common + [("wall", "up-down")],

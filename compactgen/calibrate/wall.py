@@ -1,126 +1,138 @@
-"""Domain-wall velocity forward model: the rigid-wall steady state of PHYSICS 6.3, numerically.
+"""Domain-wall velocity forward model of a dw-mtj card: the steady state of the card's own wall
+equations, found numerically.
 
-Every equation comes from ``compactgen.physics`` (wall_motion, anisotropy, torques) and is
-lambdified here; this module only finds the steady state:
+The expressions are the card's ModelIR (devices/dw_mtj.py composing physics/domain_wall.py), the
+same sympy that the Verilog-A module, the ngspice subcircuit and the reference solver print: the
+wall-angle rate (right-hand side of state ``phi``), the wall speed (right-hand side of state
+``xw`` times d(wall_pos)/d(xw)), the rest angle ``phi0`` and the derived wall width, wall
+anisotropy field and DMI field.  No equation is written here.  Two substitutions turn the circuit
+model into the measurement:
 
-- The wall-angle equation phi_dot = f(phi) has no q dependence without pinning, so from the
-  rest angle (minimum of the wall energy) phi moves monotonically to the first zero of f in
-  the direction of f(phi_rest): that zero is the steady state (the torque-balance root; with
-  H_K = 0 it reproduces the closed form, with D = 0 and H_z alone Schryer-Walker).
-- If f has no zero on a full turn the wall precesses (above Walker breakdown); the velocity
-  is then the time average <q_dot> = Int q_dot/f dphi / Int 1/f dphi over one period.
+- the current density at the wall (local ``j_wall``) is the data's ``current_density``, and the
+  perpendicular field (parameter ``hz``) the data's ``field`` (0 without a field column); the
+  in-plane fields ``hx``, ``hy`` and every other parameter are the card's;
+- the pinning field (local ``h_pin``: periodic landscape and edge barriers) is zero: the data are
+  velocities of the flow regime, a free wall far from the track ends.  ``h_dep`` and ``pin_pitch``
+  are not seen by this model (runner notes data below the card's depinning thresholds).
 
-The parameter names are those of ``WALL_SPECS`` (a domain-wall track: free layer, exchange,
-DMI, damping, spin Hall angle); a device kind with other names passes a ``names`` mapping.
+Steady state: the wall-angle equation phi_dot = f(phi) does not depend on q without pinning, so
+from the rest angle phi moves monotonically to the first zero of f in the direction of
+f(phi_rest): that zero is the steady state (with H_K = 0 it is the closed form of PHYSICS 6.3,
+with D = 0 and H_z alone Schryer-Walker).  If f has no zero on a full turn the wall precesses
+(above Walker breakdown); the velocity is then the time average
+<q_dot> = Int q_dot/f dphi / Int 1/f dphi over one period.
+
+The card's wall is up -> down (Q = +1).  A down -> up wall (Q = -1) follows from it by the
+symmetry of the PHYSICS 6.2 equations under phi -> phi + pi, q -> -q: it moves as
+v(J, H_z, H_x, H_y) = -v_{Q=+1}(-J, H_z, -H_x, -H_y) (derived; checked against
+physics.domain_wall with charge -1 in tests/test_calibrate_physics.py).
 """
 from __future__ import annotations
 
-import functools
 import math
+from dataclasses import dataclass
 
 import numpy as np
 import sympy as sp
 
-from ..params import ParamSpec
-from ..physics import anisotropy, torques, wall_motion
-from ..physics.constants import const_values
+from ..errors import InputError
+from .models import expand_ir
 
-NM = 1e-9
-
-#: parameters the wall-velocity model reads (SI units); ranges bound the fit
-WALL_SPECS: tuple[ParamSpec, ...] = (
-    ParamSpec("ms", "A/m", 1.0e6, 1e4, 3e6, "saturation magnetisation of the track", card_unit="MA/m",
-              group="track"),
-    ParamSpec("t_free", "m", 1.0 * NM, 0.3 * NM, 10 * NM, "ferromagnet thickness", card_unit="nm", group="track"),
-    ParamSpec("ki", "J/m^2", 1.3e-3, 0.0, 1e-2, "interface anisotropy energy density", card_unit="mJ/m^2",
-              group="track"),
-    ParamSpec("kb", "J/m^3", 0.0, -1e7, 1e7, "bulk uniaxial anisotropy energy density", group="track"),
-    ParamSpec("a_ex", "J/m", 15e-12, 1e-12, 5e-11, "exchange stiffness", card_unit="pJ/m",
-              source="Co-based 10-20 pJ/m (from memory)", group="track"),
-    ParamSpec("d_dmi", "J/m^2", 1e-3, -5e-3, 5e-3, "interfacial DMI constant (D > 0: up-down wall has phi = pi)",
-              card_unit="mJ/m^2", group="track"),
-    ParamSpec("alpha", "1", 0.3, 1e-3, 1.0, "Gilbert damping of the track", group="track"),
-    ParamSpec("theta_sh", "1", 0.1, -1.0, 1.0, "signed effective spin Hall angle of the heavy metal",
-              group="heavy metal"),
-)
-
-NAMES = tuple(s.name for s in WALL_SPECS)
 _GRID = 720  # points per turn of the wall angle
+#: IR names this model relies on (devices/dw_mtj.py)
+_CURRENT, _PINNING, _FIELD = "j_wall", "h_pin", "hz"
+_MATERIAL = ("keff", "wall_width", "h_kwall", "h_dmi")
 
 
-def wall_specs() -> dict[str, ParamSpec]:
-    return {s.name: s for s in WALL_SPECS}
+@dataclass
+class WallFunctions:
+    """Lambdified wall equations of one dw-mtj card (parameter order = ``names``)."""
+
+    names: list[str]
+    rate: object  # (params..., phi, j, h_z) -> d phi/dt [rad/s]
+    speed: object  # (params..., phi, j, h_z) -> dq/dt [m/s]
+    rest: object  # (params...) -> rest angle phi0 [rad]
+    material: dict  # name -> (params...) -> value (keff, wall_width, h_kwall, h_dmi)
+    figures: dict  # name -> ((params...) -> value, unit, meaning): the IR's key figures
+    uses: tuple[str, ...]  # parameters the velocity depends on
+
+    def args(self, values: dict[str, float]) -> list[float]:
+        return [float(values[n]) for n in self.names]
 
 
-@functools.lru_cache(maxsize=1)
-def _functions():
-    """Lambdified physics: material -> (width, H_K, H_D, v_D); drive -> H_SH; phi_dot; q_dot; energy."""
-    c = const_values()
-    ms, t, ki, kb, a_ex, d = sp.symbols("ms t_free ki kb a_ex d_dmi", real=True)
-    ku = anisotropy.uniaxial_energy_density(kb, ki, t)
-    hk_eff = anisotropy.effective_anisotropy_field(anisotropy.anisotropy_field(ku, ms), ms, 0, 1)  # thin film
-    keff = anisotropy.effective_energy_density(hk_eff, ms)
-    width = wall_motion.wall_width(a_ex, keff)
-    h_k = wall_motion.wall_shape_field(ms, wall_motion.wall_demag_factor(t, width))
-    h_d = wall_motion.dmi_field(d, ms, width)
-    mat_args = (ms, t, ki, kb, a_ex, d)
-    material = sp.lambdify(mat_args, [s.xreplace(c) for s in (keff, width, h_k, h_d)], "numpy")
+def wall_functions(ir) -> WallFunctions:
+    """The wall equations of a dw-mtj ModelIR (``card.ir()``), lambdified once; parameter values
+    enter at evaluation, so one set serves every value of a fit."""
+    if ir.kind != "dw-mtj":
+        raise InputError(f"the wall-velocity model needs a dw-mtj model, not {ir.kind}")
+    P = ir.params.symbols()
+    j, hz = sp.symbols("j_data h_z_data", real=True)
+    names, psyms, full, loc = expand_ir(ir, {_CURRENT: j, _PINNING: sp.Integer(0)})
+    seen = {str(s) for s in loc}
+    if not {_CURRENT, _PINNING} <= seen or _FIELD not in P:
+        raise InputError(f"the dw-mtj model has no {_CURRENT}, {_PINNING} or {_FIELD}: calibrate.wall needs updating")
+    states = {st.name: st for st in ir.states}
+    phi, xw = states["phi"].symbol, states["xw"].symbol
+    wall_pos = next(o.expr for o in ir.outputs if o.name == "wall_pos")
+    sub = {P[_FIELD]: hz}
 
-    j, theta = sp.symbols("j theta_sh", real=True)
-    h_sh = sp.lambdify((j, theta, ms, t), torques.spin_torque_field(j, theta, ms, t).xreplace(c), "numpy")
+    def expand(expr):
+        return sp.sympify(expr).xreplace(full).xreplace(loc).xreplace(sub).xreplace(ir.constants)
 
-    phi, q, alpha, w, hz, hsh, hk, hd, hx, hy = sp.symbols("phi q alpha width h_z h_sh h_k h_d h_x h_y", real=True)
-    args = (phi, q, alpha, w, hz, hsh, hk, hd, hx, hy)
-    rate = wall_motion.wall_angle_rate(phi, q, alpha, hz, hsh, hk, hd, hx, hy).xreplace(c)
-    vel = wall_motion.wall_velocity(phi, q, alpha, w, hz, hsh, hk, hd, hx, hy).xreplace(c)
-    f_rate = sp.lambdify(args, rate, "numpy")
-    f_vel = sp.lambdify(args, vel, "numpy")
-    kf, msy = sp.symbols("k_eff ms_", positive=True)
-    energy = wall_motion.wall_energy_density(phi, q, a_ex, kf, w, hk, d, msy, hx, hy).xreplace(c)
-    f_energy = sp.lambdify((phi, q, a_ex, kf, w, hk, d, msy, hx, hy), energy, "numpy")
-    return material, h_sh, f_rate, f_vel, f_energy
+    rate = expand(states["phi"].rhs)
+    speed = expand(sp.diff(wall_pos, xw) * states["xw"].rhs)
+    allowed = set(psyms) | {phi, j, hz}
+    extra = (rate.free_symbols | speed.free_symbols) - allowed
+    if extra:
+        raise InputError(f"the dw-mtj wall equations depend on {', '.join(sorted(map(str, extra)))} beyond the "
+                         "parameters, the wall angle, the current density and the field: calibrate.wall needs updating")
+    args = [*psyms, phi, j, hz]
+    by_name = {str(s): s for s in full}
 
+    def lam(expr, extra_args=()):
+        return sp.lambdify([*psyms, *extra_args], expand(expr), modules="numpy")
 
-def material(values: dict[str, float], names: dict[str, str] | None = None) -> dict[str, float]:
-    """Derived track quantities: K_eff, wall width Delta, H_K, H_D (SI)."""
-    v = _pick(values, names)
-    keff, width, h_k, h_d = _functions()[0](v["ms"], v["t_free"], v["ki"], v["kb"], v["a_ex"], v["d_dmi"])
-    return {"keff": float(keff), "width": float(width), "h_k": float(h_k), "h_d": float(h_d)}
-
-
-def _pick(values: dict[str, float], names: dict[str, str] | None) -> dict[str, float]:
-    names = names or {}
-    return {n: float(values[names.get(n, n)]) for n in NAMES}
+    rest = expand(by_name["phi0"])
+    uses = tuple(n for n in names if P[n] in (rate.free_symbols | speed.free_symbols | rest.free_symbols))
+    material = {n: lam(by_name[n]) for n in _MATERIAL}
+    figures = {f.name: (lam(f.expr), f.unit, f.desc) for f in ir.figures}
+    return WallFunctions(names, sp.lambdify(args, rate, modules="numpy"), sp.lambdify(args, speed, modules="numpy"),
+                         sp.lambdify(psyms, rest, modules="numpy"), material, figures, uses)
 
 
-def steady_state(values: dict[str, float], j, h_z=0.0, q: int = 1, h_x: float = 0.0, h_y: float = 0.0,
-                 names: dict[str, str] | None = None):
+def material(fn: WallFunctions, values: dict[str, float]) -> dict[str, float]:
+    """Derived track quantities (SI): keff, wall_width, h_kwall, h_dmi."""
+    a = fn.args(values)
+    return {n: float(f(*a)) for n, f in fn.material.items()}
+
+
+def steady_state(fn: WallFunctions, values: dict[str, float], j, h_z=0.0, q: int = 1):
     """Wall velocity for current densities ``j`` [A/m^2] in the heavy metal (along +x) and
-    perpendicular fields ``h_z`` [A/m] (arrays broadcast together).
+    perpendicular fields ``h_z`` [A/m] (arrays broadcast together), for an up -> down (q = +1)
+    or down -> up (q = -1) wall.
 
     Returns (velocity [m/s], steady angle [rad] (nan where the wall precesses), steady mask).
     """
-    v = _pick(values, names)
-    mat, h_sh_f, f_rate, f_vel, f_energy = _functions()
-    keff, width, h_k, h_d = mat(v["ms"], v["t_free"], v["ki"], v["kb"], v["a_ex"], v["d_dmi"])
-    if not (keff > 0):
+    if q not in (1, -1):
+        raise ValueError("q must be +1 (up -> down wall) or -1 (down -> up wall)")
+    vals = dict(values)
+    j = np.asarray(j, float)
+    if q == -1:  # the Q = +1 equations with J, H_x, H_y reversed; the velocity reverses (module docstring)
+        j = -j
+        vals["hx"], vals["hy"] = -vals["hx"], -vals["hy"]
+    keff = fn.material["keff"](*fn.args(vals))
+    if not keff > 0:
         raise ValueError(f"effective anisotropy K_eff = {keff:.4g} J/m^3 is not positive: no perpendicular track")
-    j, h_z = np.broadcast_arrays(np.asarray(j, float), np.asarray(h_z, float))
+    a = fn.args(vals)
+    j, h_z = np.broadcast_arrays(j, np.asarray(h_z, float))
     shape = j.shape
     j, h_z = j.ravel(), h_z.ravel()
-    h_sh = h_sh_f(j, v["theta_sh"], v["ms"], v["t_free"])
-    alpha = v["alpha"]
-    # rest angle: minimum of the wall energy at zero drive
-    grid = np.linspace(-math.pi, math.pi, _GRID, endpoint=False)
-    e = f_energy(grid, q, v["a_ex"], keff, width, h_k, v["d_dmi"], v["ms"], h_x, h_y)
-    phi0 = grid[int(np.argmin(e))]
-    # march from the rest angle in the direction of phi_dot, one turn at most
-    rate0 = f_rate(phi0, q, alpha, width, h_z, h_sh, h_k, h_d, h_x, h_y)
+    phi0 = float(fn.rest(*a))
+    rate0 = np.broadcast_to(fn.rate(*a, phi0, j, h_z), j.shape)
     direction = np.where(rate0 >= 0, 1.0, -1.0)
     steps = np.arange(_GRID + 1) * (2 * math.pi / _GRID)
     phis = phi0 + direction[:, None] * steps[None, :]
-    rates = f_rate(phis, q, alpha, width, h_z[:, None], h_sh[:, None], h_k, h_d, h_x, h_y) * direction[:, None]
-    rates = np.broadcast_to(rates, phis.shape)
+    rates = np.broadcast_to(fn.rate(*a, phis, j[:, None], h_z[:, None]), phis.shape) * direction[:, None]
     stopped = rates <= 0
     steady = stopped.any(axis=1)
     first = np.argmax(stopped, axis=1)
@@ -131,20 +143,21 @@ def steady_state(values: dict[str, float], j, h_z=0.0, q: int = 1, h_x: float = 
         k = first[idx]
         lo = np.where(k > 0, phis[idx, np.maximum(k - 1, 0)], phis[idx, 0])
         hi = phis[idx, k]
-        args = (q, alpha, width, h_z[idx], h_sh[idx], h_k, h_d, h_x, h_y)
         d = direction[idx]
         for _ in range(38):  # bisection on [lo, hi] (width 2pi/720): 2e-14 rad at the end
             mid = 0.5 * (lo + hi)
-            pos = f_rate(mid, *args) * d > 0
+            pos = fn.rate(*a, mid, j[idx], h_z[idx]) * d > 0
             lo = np.where(pos, mid, lo)
             hi = np.where(pos, hi, mid)
         phi_ss[idx] = 0.5 * (lo + hi)
-        vel[idx] = f_vel(phi_ss[idx], *args)
+        vel[idx] = np.broadcast_to(fn.speed(*a, phi_ss[idx], j[idx], h_z[idx]), idx.shape)
     idx = np.nonzero(~steady)[0]
     if idx.size:  # precessing wall: average over one period of phi (periodic trapezoid rule)
-        ph = grid[None, :]
-        args = (q, alpha, width, h_z[idx, None], h_sh[idx, None], h_k, h_d, h_x, h_y)
-        r = f_rate(ph, *args)
-        qd = f_vel(ph, *args)
+        ph = (phi0 + steps[:-1])[None, :]
+        r = np.broadcast_to(fn.rate(*a, ph, j[idx, None], h_z[idx, None]), (idx.size, _GRID))
+        qd = np.broadcast_to(fn.speed(*a, ph, j[idx, None], h_z[idx, None]), (idx.size, _GRID))
         vel[idx] = np.sum(qd / r, axis=1) / np.sum(1.0 / r, axis=1)
+    if q == -1:
+        vel = -vel
+        phi_ss = phi_ss + math.pi
     return vel.reshape(shape), phi_ss.reshape(shape), steady.reshape(shape)

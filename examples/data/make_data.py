@@ -7,7 +7,7 @@ writes, next to this script, from the wafer truth card truth_pmtj35.toml:
   rh_loops_slow.csv      three R-H loops at 10 mT/s
   rh_loops_fast.csv      three R-H loops at 10 T/s
   switching.csv          switched counts out of 400 pulses, both directions, thermal and precessional
-and, for a domain-wall track (values TRUTH_WALL in compactgen/calibrate/synthetic.py),
+and, from the domain-wall track truth card truth_dwtrack.toml (dw-mtj),
   wall/wall_velocity_current.csv, wall/wall_velocity_field.csv
 The seed is fixed, so the files are reproducible.
 """
@@ -23,6 +23,7 @@ HERE = Path(__file__).resolve().parent
 if __name__ == "__main__":
     truth = load_card(HERE / "truth_pmtj35.toml")
     files = make_stt_data(truth, HERE, seed=2026, source="examples/data/truth_pmtj35.toml")
-    files += make_wall_data(HERE / "wall", seed=2026)
+    track = load_card(HERE / "truth_dwtrack.toml")
+    files += make_wall_data(track, HERE / "wall", seed=2026, source="examples/data/truth_dwtrack.toml")
     for f in files:
         print(f"wrote {f.relative_to(HERE.parent.parent)}")
