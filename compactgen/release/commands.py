@@ -188,8 +188,9 @@ def cmd_check_release(args) -> int:
 
 
 # ---- demo ---------------------------------------------------------------------------------------
-DEMO_DEVICE = "pmtj35_demo"  # the example device the demo releases
-DEMO_FIT = "pmtj35_fit"  # its re-fit to the bundled synthetic data (compactgen.calibrate demo step)
+DEMO_DEVICE = "pmtj35_demo"  # the example device the demo releases; the edited-card fallback is for it
+#: (example device, its re-fit to the bundled synthetic data by the compactgen.calibrate demo step)
+DEMO_PAIRS = (("pmtj35_demo", "pmtj35_fit"), ("dwtrack_demo", "dwtrack_fit"))
 DEMO_ACCEPT_FIT = ("demo scenario: re-fit of the example device to the bundled synthetic measurements; the "
                    "parameter and figure changes are the intended result of the fit")
 DEMO_ACCEPT = ("demo scenario: RA and TMR re-measured on a new (synthetic) wafer lot; the resistance and "
@@ -276,19 +277,24 @@ def demo_release(card_v1: Path, card_v2: Path, out_dir: Path, suite_v1=None, acc
 
 def demo_release_step(out_dir: Path, runs: dict) -> bool:
     """The release step of `compactgen demo`: ``runs`` maps model names to (card path, verify
-    result) of the cards the demo verified.  Release 1.0.0 is the example device (its verify
-    result reused); 1.1.0 is its re-fit (the fitted card under the device's name) when the fit
-    step ran, else an edited copy of the card."""
-    if DEMO_DEVICE not in runs:
-        return True
-    card_v1, result = runs[DEMO_DEVICE]
-    if not result.passed:
-        _say(f"release step skipped: {DEMO_DEVICE} fails its benches")
-        return False
+    result) of the cards the demo verified.  For each example device with a re-fit (DEMO_PAIRS),
+    release 1.0.0 is the device (its verify result reused) and 1.1.0 its re-fit (the fitted card
+    under the device's name); without the fit step, 1.1.0 of DEMO_DEVICE is an edited copy."""
     out_dir = Path(out_dir)
-    _say(f"== releases of {DEMO_DEVICE} ==")
-    if DEMO_FIT in runs:
-        v2 = renamed_card(runs[DEMO_FIT][0], DEMO_DEVICE, out_dir / f"{DEMO_DEVICE}_refit.toml")
-        return demo_release(card_v1, v2, out_dir, suite_v1=result, accept=DEMO_ACCEPT_FIT)
-    v2 = demo_edited_card(card_v1, out_dir / f"{DEMO_DEVICE}_v2.toml")
-    return demo_release(card_v1, v2, out_dir, suite_v1=result, accept=DEMO_ACCEPT)
+    ok = True
+    for device, fit in DEMO_PAIRS:
+        if device not in runs or (fit not in runs and device != DEMO_DEVICE):
+            continue
+        card_v1, result = runs[device]
+        _say(f"== releases of {device} ==")
+        if not result.passed:
+            _say(f"release step skipped: {device} fails its benches")
+            ok = False
+            continue
+        if fit in runs:
+            v2 = renamed_card(runs[fit][0], device, out_dir / f"{device}_refit.toml")
+            ok &= demo_release(card_v1, v2, out_dir, suite_v1=result, accept=DEMO_ACCEPT_FIT)
+        else:
+            v2 = demo_edited_card(card_v1, out_dir / f"{device}_v2.toml")
+            ok &= demo_release(card_v1, v2, out_dir, suite_v1=result, accept=DEMO_ACCEPT)
+    return ok
