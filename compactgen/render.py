@@ -70,6 +70,12 @@ def _stress_expr(ir: ModelIR) -> sp.Expr:
     return sp.Max(*terms) if len(terms) > 1 else terms[0]
 
 
+def _reference_numbers(ir: ModelIR, temperature: float) -> dict:
+    from .reference import ReferenceModel
+
+    return {k: float(v) for k, v in ReferenceModel(ir, temperature=temperature).num.items()}
+
+
 def _common(ir: ModelIR) -> dict:
     return dict(
         name=ir.name, title=ir.title, kind=ir.kind, version=__version__, digest=ir.digest(),
@@ -162,7 +168,9 @@ def ngspice(ir: ModelIR) -> str:
         expanded form suits polynomial state equations, the composed one rational read-outs),
         with parameter-only parts hoisted."""
         e = sp.sympify(e)
-        candidates = [e, collect_terms(e, hoist.base)]
+        # factor_terms pulls common factors out of sums (also inside denominators), so a ratio of
+        # two tiny parameter products becomes one coefficient of ordinary size
+        candidates = [sp.factor_terms(x) for x in (e, collect_terms(e, hoist.base))]
 
         def size(x):
             return sp.count_ops(Hoister(hoist.base)(x))
@@ -178,11 +186,22 @@ def ngspice(ir: ModelIR) -> str:
               + [b.current for b in ir.branches]):
         used |= e.free_symbols & tdep
     tnodes = []
+    # each node carries value/scale with scale = |value| at the card's values and tnom, so node
+    # voltages are O(1) whatever the quantity (a wall width of 5e-9 m on a node would sit below
+    # ngspice's absolute voltage tolerance); initial conditions (parse time) use T = tnom
+    t_ref = ir.params["tnom"].default if "tnom" in ir.params else 300.15
+    t_ref_sym = ir.params["tnom"].symbol if "tnom" in ir.params else sp.Float(t_ref)
+    ref_num = _reference_numbers(ir, t_ref) if used else {}
+    ic_inline: dict[sp.Symbol, sp.Expr] = {}
+    for sym, e in ir.derived:
+        if sym in tdep:
+            ic_inline[sym] = e.xreplace({ir.temperature: t_ref_sym}).xreplace(ic_inline)
     for sym, _ in ir.derived:
         if sym in used:
-            tnodes.append(dict(name=f"tq_{sym}", code=spice_wrap(pr.code(inline[sym]))))
+            scale = abs(ref_num.get(sym, 1.0)) or 1.0
+            tnodes.append(dict(name=f"tq_{sym}", code=spice_wrap(pr.code(compact(inline[sym] / scale)))))
             pr.symbol_map[f"tqn_{sym}"] = f"V(tq_{sym})"
-            inline[sym] = sp.Symbol(f"tqn_{sym}", real=True)
+            inline[sym] = sp.Float(scale) * sp.Symbol(f"tqn_{sym}", real=True)
     aux, extra_derived = [], []
     for sym, e in ir.locals:
         if sym in ir.shared:
@@ -214,7 +233,7 @@ def ngspice(ir: ModelIR) -> str:
         constants=[dict(name=str(k), code=format_number(v)) for k, v in ir.constants.items()],
         aux=aux,
         temperature_nodes=tnodes,
-        states=[dict(name=s.name, desc=s.desc, residual=spice_wrap(residual(s)), initial=code(s.initial))
+        states=[dict(name=s.name, desc=s.desc, residual=spice_wrap(residual(s)), initial=pr.code(hoist(sp.sympify(s.initial).xreplace(ic_inline))))
                 for s in ir.states],
         time_scale=str(ir.time_scale),
         branches=[dict(pos=b.pos, neg=b.neg, desc=b.desc, code=spice_wrap(code(b.current))) for b in ir.branches],

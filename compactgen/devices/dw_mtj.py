@@ -21,11 +21,11 @@ import sympy as sp
 
 from ..ir import Branch, Figure, ModelIR, Output, State
 from ..params import ParamSpec
-from ..physics import anisotropy, domain_wall, heavy_metal, torques, tunnelling
+from ..physics import anisotropy, domain_wall, heavy_metal, temperature, torques, tunnelling
 from ..physics.constants import const_values, gamma0
 from .variation import apply_variation, variation_specs
 from .base import DeviceKind, register
-from .common import NM, Parts, free_layer_specs, limit_specs, mtj_conductance, mtj_read_specs
+from .common import NM, Parts, device_temperature, free_layer_specs, limit_specs, mtj_conductance, mtj_read_specs
 from .sot_mtj import MT
 from .write_line import (CONVENTIONS, WHY_DC, heavy_metal_specs, line_current_density, line_resistance_bench,
                          three_terminal)
@@ -53,8 +53,11 @@ class DwMtj(DeviceKind):
                 "ki": "interface anisotropy energy density of the track",
                 "kb": "bulk uniaxial anisotropy energy density of the track (perpendicular > 0)",
                 "alpha": "Gilbert damping of the track", "hx": None, "hy": None,
-                "hz": "external field along z (perpendicular; +z grows the domain between w1 and the wall)"}
-        track = [dataclasses.replace(s, desc=keep[s.name] or s.desc, group="track" if s.group != "fields" else s.group)
+                "hz": "external field along z (perpendicular; +z grows the domain between w1 and the wall)",
+                "tnom": "temperature at which the card values hold", "t_curie": None, "aniso_exp": None,
+                "dtemp": None}
+        track = [dataclasses.replace(s, desc=keep[s.name] or s.desc,
+                                     group=s.group if s.group in ("fields", "temperature") else "track")
                  for s in free_layer_specs() if s.name in keep]
         g = "track"
         geo = [
@@ -107,13 +110,25 @@ class DwMtj(DeviceKind):
         parts.constraints.append((hk_eff, "the effective anisotropy field H_k,eff of the track must be positive "
                                   "(perpendicular track); raise ki or lower ms"))
         keff = parts.d("keff", anisotropy.effective_energy_density(hk_eff, P["ms"]))
-        dw = parts.d("wall_width", domain_wall.wall_width(P["a_ex"], keff), positive=True)
+        tsc = parts.d("tsc", 1 / (gamma0 * hk_eff))  # at tnom: time scales may not depend on temperature
+        # at the device temperature T = simulator temperature + dtemp: Ms(T) (Bloch) and K(T)
+        # (Callen-Callen) as for the free layer of the MTJ kinds; the exchange stiffness a_ex is
+        # kept at its card value.  From here on P["ms"] is Ms(T).
+        temp = device_temperature(parts)
+        ms_ratio = parts.d("ms_ratio", temperature.magnetisation_ratio(temp, P["tnom"], P["t_curie"]), positive=True)
+        ms_nom = P["ms"]
+        P["ms"] = parts.d("ms_t", ms_nom * ms_ratio, positive=True)
+        ku_t = parts.d("ku_t", temperature.callen_callen(ku, ms_ratio, P["aniso_exp"]))
+        hk_eff_t = parts.d("hk_eff_t", anisotropy.effective_anisotropy_field(
+            anisotropy.anisotropy_field(ku_t, P["ms"]), P["ms"], 0, 1))
+        keff_t = parts.d("keff_t", anisotropy.effective_energy_density(hk_eff_t, P["ms"]))
+        parts.nominal.update({P["ms"]: ms_nom, ku_t: ku, hk_eff_t: hk_eff, keff_t: keff})
+        dw = parts.d("wall_width", domain_wall.wall_width(P["a_ex"], keff_t), positive=True)
         h_kw = parts.d("h_kwall", domain_wall.wall_anisotropy_field(domain_wall.wall_demag_factor(P["t_free"], dw),
                                                                     P["ms"]))
         h_d = parts.d("h_dmi", domain_wall.dmi_field(P["dmi"], P["ms"], dw))
-        tsc = parts.d("tsc", 1 / (gamma0 * hk_eff))
         parts.constraints += [
-            (L - MIN_TRACK_WIDTHS * dw, f"track_length must exceed {MIN_TRACK_WIDTHS} wall widths "
+            (L - MIN_TRACK_WIDTHS * domain_wall.wall_width(P["a_ex"], keff), f"track_length must exceed {MIN_TRACK_WIDTHS} wall widths "
                                         "Delta = sqrt(a_ex/K_eff) (the wall is too wide for the track; lower a_ex or "
                                         "raise the anisotropy); margin"),
             (L - P["mtj_length"], "the track (track_length) must be longer than the junction (mtj_length); margin"),
@@ -334,6 +349,30 @@ def dw_benches(ir, values):
                 [Metric("wall velocity", "m/s", mean_rate("xw", t_a, t_b, L), 2e-3, 0.0, WHY_V + WHY_V_EXPECT,
                         expect=(v_ss, 5e-3 * abs(v_ss)))],
                 instance=inst, t_stop=t_b + 0.02e-9, t_step=1e-11, max_step=tmax, plot=("state:xw", "state:phi")))
+    # ---- temperature: Ms(T), K(T) change the wall width, the DMI field and the torque; the same
+    # current density (J_1/2 at tnom) at each bench temperature
+    if values["dmi"] != 0.0:
+        from ..constants import ZERO_CELSIUS
+        from .stt_mtj import BENCH_TEMPERATURES_C
+
+        j = figs["j_half"]
+        sign_v = -np.sign(values["theta_sh"] * values["dmi"])
+        for t_c in BENCH_TEMPERATURES_C:
+            t_k = t_c + ZERO_CELSIUS
+            tag = f"{t_c:+.0f}C".replace("+", "p").replace("-", "m")
+            inst = {"h_dep": 0.0, "wall0": 0.9 * L if sign_v < 0 else 0.1 * L}
+            model = ReferenceModel(ir, inst, temperature=t_k)
+            drive = line_drive(model, j * cross)
+            drives = {n: (Pulse(0.0, v, 0.0, PULSE_RISE, PULSE_RISE, 1.0) if v else Dc(0.0)) for n, v in drive.items()}
+            probe = _probe(model, drives, _travel_time(L, dw, figs["v_dmi"], 1.0))
+            v_probe = float(np.mean(np.diff(probe.states["xw"][-50:]) / np.diff(probe.t[-50:]))) * L
+            t_a, t_b = _settled_window(probe, L, v_probe)
+            benches.append(Bench(
+                f"temp_velocity_{tag}", f"SOT-driven wall at {t_c:g} degC, J = {j / 1e10:.1f} MA/cm^2 (J_1/2 at tnom), "
+                f"no pinning", "tran", drives,
+                [Metric("wall velocity", "m/s", mean_rate("xw", t_a, t_b, L), 2e-3, 0.0, WHY_V)],
+                instance=inst, t_stop=t_b + 0.02e-9, t_step=1e-11, max_step=tmax, plot=("state:xw",),
+                temperature=t_k))
     # ---- field-driven (no DMI, no pinning): below and above the Walker field
     h_w = figs["h_walker"]
     for k in (0.5, 2.0):

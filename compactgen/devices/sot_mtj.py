@@ -162,6 +162,8 @@ def sot_benches(ir, values):
     from ..benches import (Bench, Dc, Metric, Pulse, Pwl, branch_resistance_at, current_at_crossing, final_value,
                            switching_time)
     from ..reference import ReferenceModel, figures
+    from ..constants import ZERO_CELSIUS
+    from .stt_mtj import BENCH_TEMPERATURES_C
     from .write_line import line_drive
 
     figs = figures(ir)
@@ -202,6 +204,24 @@ def sot_benches(ir, values):
             f"w2 {drive['w2']:+.3f} V), hx {'-' if hsign < 0 else '+'}|hx|: final m_z = sign(J theta_sh hx) = {final:+g}",
             "tran", drives, metrics, instance=inst, t_stop=DELAY + RISE + WIDTH + FALL + 1.5e-9, t_step=1e-11,
             max_step=tmax, plot=("state:mz", "current:w1")))
+    # temperature: Ms(T), K(T) and TMR(T) move the threshold and the switching time; 2 x J_c(T)
+    for t_c in BENCH_TEMPERATURES_C:
+        t_k = t_c + ZERO_CELSIUS
+        tag = f"{t_c:+.0f}C".replace("+", "p").replace("-", "m")
+        jc_t = figures(ir, temperature=t_k)["j_c_sot"]
+        final = float(np.sign(-theta * hx))
+        model = ReferenceModel(ir, {"state0": -final}, temperature=t_k)
+        drive = line_drive(model, -2.0 * jc_t * cross)
+        drives = {n: (Pulse(0.0, v, DELAY, RISE, FALL, WIDTH) if v else Dc(0.0)) for n, v in drive.items()}
+        benches.append(Bench(
+            f"temp_write_2jc_{tag}", f"write pulse -2 x J_c(T) at {t_c:g} degC ({-2 * jc_t / 1e10:+.1f} MA/cm^2)",
+            "tran", drives,
+            [Metric("switching time", "s", switching_time("mz", DELAY, int(final)), 1e-2, 0.0, WHY_TSW),
+             # no expected final state here: with step pulses the outcome depends on damping, field
+             # and temperature (at 125 degC the demo cell rings back), which all three engines agree on
+             Metric("final m_z", "1", final_value("mz"), 0.0, 0.02, WHY_FINAL)],
+            instance={"state0": -final}, t_stop=DELAY + RISE + WIDTH + FALL + 1.5e-9, t_step=1e-11, max_step=tmax,
+            plot=("state:mz",), temperature=t_k))
     # quasi-static threshold: a slow ramp to 1.2 J_c
     final = -1.0
     jsign = float(np.sign(final * theta * hx))
