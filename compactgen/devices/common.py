@@ -241,4 +241,18 @@ def mtj_conductance(parts: Parts, area, v, cos_theta):
                      node_scale=area / P["ra"])
 
 
-__all__ = ["Parts", "free_layer", "macrospin_states", "mtj_conductance", "const_values"]
+def pillar_free_layer(kind, values: dict[str, float], varied):
+    """The start every pillar-based kind shares: parameter table with the card values, a Parts
+    accumulator, the disk area, process variation of ``varied``, then the free layer.
+    Returns (table, P, parts, area, free-layer dict)."""
+    from .variation import apply_variation
+
+    table = kind.table_with(values)
+    P = table.symbols()
+    parts = Parts(P)
+    area = parts.d("area_fl", geometry.disk_area(P["diameter"]), positive=True)
+    apply_variation(parts, varied, area)
+    return table, P, parts, area, free_layer(parts, area)
+
+
+__all__ = ["Parts", "pillar_free_layer", "free_layer", "macrospin_states", "mtj_conductance", "const_values"]

@@ -17,12 +17,12 @@ import sympy as sp
 from ..constants import MU0
 from ..ir import Branch, Figure, ModelIR, Output
 from ..params import ParamSpec
-from ..physics import geometry, heavy_metal, macrospin, spin_orbit, torques
+from ..physics import heavy_metal, macrospin, spin_orbit, torques
 from ..physics.constants import const_values
-from .variation import apply_variation, variation_specs
+from .variation import variation_specs
 from .base import DeviceKind, register
-from .common import (NM, Parts, free_layer, free_layer_specs, limit_specs, macrospin_states,
-                     mtj_conductance, mtj_read_specs, orientation_specs)
+from .common import (NM, free_layer_specs, limit_specs, macrospin_states, mtj_conductance, mtj_read_specs,
+                     orientation_specs, pillar_free_layer)
 from .stt_mtj import SttMtj
 from .write_line import (CONVENTIONS, WHY_DC, heavy_metal_specs, line_current_density, line_resistance_bench,
                          three_terminal)
@@ -63,12 +63,7 @@ class SotMtj(DeviceKind):
     derive_defaults = SttMtj.derive_defaults  # demagnetising factor from the pillar, as for stt-mtj
 
     def build_ir(self, name, values, options) -> ModelIR:
-        table = self.table_with(values)
-        P = table.symbols()
-        parts = Parts(P)
-        area = parts.d("area_fl", geometry.disk_area(P["diameter"]), positive=True)
-        apply_variation(parts, VARIED, area)
-        fl = free_layer(parts, area)
+        table, P, parts, area, fl = pillar_free_layer(self, values, VARIED)
         r_line = parts.d("r_line", heavy_metal.line_resistance(P["rho_hm"], P["line_length"], P["line_width"],
                                                                P["t_hm"]), positive=True)
         cell = three_terminal(parts, r_line / 2, r_line / 2)

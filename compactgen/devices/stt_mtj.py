@@ -14,15 +14,15 @@ from scipy.optimize import brentq
 from ..benches import (Bench, Dc, Metric, Pulse, crossing_time, dc_curve_deviation_factory, dc_resistance_at,
                        extreme_value, final_value, switching_time)
 from ..ir import Branch, Figure, ModelIR, Output, Terminal
-from ..physics import geometry, macrospin, switching, thermal, torques, tunnelling
+from ..physics import macrospin, switching, thermal, torques, tunnelling
 from ..constants import ZERO_CELSIUS
 from ..physics.constants import const_values
 from ..reference import ReferenceModel, figures
 from .base import DeviceKind, Option, register
-from .common import (Parts, cylinder_nz, free_layer, free_layer_specs, limit_specs, macrospin_states,
-                     mtj_conductance, mtj_read_specs, orientation_specs)
+from .common import (cylinder_nz, free_layer_specs, limit_specs, macrospin_states, mtj_conductance,
+                     mtj_read_specs, orientation_specs, pillar_free_layer)
 from ..params import ParamSpec
-from .variation import apply_variation, variation_specs
+from .variation import variation_specs
 
 
 #: parameters with process variation: (name, direction of the slow corner, global sigma, mismatch
@@ -61,12 +61,7 @@ class SttMtj(DeviceKind):
         return out
 
     def build_ir(self, name, values, options) -> ModelIR:
-        table = self.table_with(values)
-        P = table.symbols()
-        parts = Parts(P)
-        area = parts.d("area_fl", geometry.disk_area(P["diameter"]), positive=True)
-        apply_variation(parts, VARIED, area)
-        fl = free_layer(parts, area)
+        table, P, parts, area, fl = pillar_free_layer(self, values, VARIED)
         v = sp.Symbol("v_tb", real=True)
         mz_sym = sp.Symbol("mz", real=True)
         g = mtj_conductance(parts, area, v, mz_sym)  # p = +z, so cos(theta) = m_z
