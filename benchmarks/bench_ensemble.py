@@ -1,12 +1,15 @@
 """Ensemble throughput: 1e4 macrospins x 20 ns at 1 ps steps (2e8 trajectory-steps), stochastic
 LLG with Brown's field, compiled (numba) kernel and numpy engine measured side by side.
 
-Run: PYTHONPATH=. python benchmarks/bench_ensemble.py [n_spins] [t_ns]
+Run: python benchmarks/bench_ensemble.py [n_spins] [t_ns]
 """
 from __future__ import annotations
 
 import sys
 import time
+from pathlib import Path
+
+EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 
 if __name__ == "__main__":
     import numba
@@ -14,7 +17,6 @@ if __name__ == "__main__":
     from compactgen.card import load_card
     from compactgen.reference import figures
     from compactgen.stochastic import StochasticModel
-    from tests.helpers import EXAMPLES
 
     n = int(sys.argv[1]) if len(sys.argv) > 1 else 10_000
     t_end = (float(sys.argv[2]) if len(sys.argv) > 2 else 20.0) * 1e-9
