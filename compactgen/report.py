@@ -30,6 +30,16 @@ def png_base64(fig) -> str:
     return base64.b64encode(buf.getvalue()).decode()
 
 
+def style_pair(ax, axd, ylabel: str, xlabel: str, diff_label: str) -> None:
+    """Labels, grid and legend of a quantity panel above its difference panel."""
+    ax.set_ylabel(ylabel)
+    ax.grid(alpha=0.3)
+    ax.legend(fontsize=8)
+    axd.set_ylabel(diff_label)
+    axd.set_xlabel(xlabel)
+    axd.grid(alpha=0.3)
+
+
 def bench_plot(run) -> str | None:
     """One figure per bench: the quantity on top, simulator minus reference below."""
     plt = _figure()
@@ -47,12 +57,7 @@ def bench_plot(run) -> str | None:
             if name != "reference" and len(x):
                 yi = np.interp(x, ref_x, ref_y) if b.analysis == "tran" else ref_y
                 axd.plot(x, y - yi, STYLES.get(name, "-"), color=COLORS.get(name), lw=1.0)
-        ax.set_ylabel(ylabel)
-        ax.grid(alpha=0.3)
-        ax.legend(fontsize=8)
-        axd.set_ylabel("sim - ref")
-        axd.set_xlabel(xlabel)
-        axd.grid(alpha=0.3)
+        style_pair(ax, axd, ylabel, xlabel, "sim - ref")
     fig.suptitle(f"{b.name}: {b.title}", fontsize=9)
     return png_base64(fig)
 

@@ -293,7 +293,7 @@ def _series(table, spec: str, source: str = "reference"):
 
 def curve_plot(row: CurveRow, specs: list[str], old_label: str, new_label: str) -> str | None:
     """Old and new reference curves overlaid, new minus old below (on the old grid)."""
-    from ..report import _figure, png_base64
+    from ..report import _figure, png_base64, style_pair
 
     if row.old is None or row.new is None or not specs or row.status == "not comparable":
         return None
@@ -313,12 +313,7 @@ def curve_plot(row: CurveRow, specs: list[str], old_label: str, new_label: str) 
         m = (xo >= lo) & (xo <= hi)
         ok = np.isfinite(yn)
         axd.plot(xo[m], np.interp(xo[m], xn[ok], yn[ok]) - yo[m], "-", color="tab:red", lw=1.0)
-        ax.set_ylabel(ylabel)
-        ax.grid(alpha=0.3)
-        ax.legend(fontsize=8)
-        axd.set_ylabel("new - old")
-        axd.set_xlabel(xlabel)
-        axd.grid(alpha=0.3)
+        style_pair(ax, axd, ylabel, xlabel, "new - old")
     fig.suptitle(f"{row.bench}: {row.status}" + (f" (worst: {row.column}, {ratio_text(row.error)} x band)"
                                                   if row.column else ""), fontsize=9)
     return png_base64(fig)
