@@ -93,8 +93,9 @@ class Metric:
     expect: tuple[float, float] | None = None  # (value, absolute tolerance) for every run
 
     def agrees(self, ref: float, sim: float) -> bool:
+        """A NaN (a missing event, a failed measurement) never agrees, not even with another NaN."""
         if not (np.isfinite(ref) and np.isfinite(sim)):
-            return bool(np.isnan(ref) and np.isnan(sim))
+            return False
         return abs(sim - ref) <= self.atol + self.rtol * abs(ref)
 
     def meets_expectation(self, value: float) -> bool:
@@ -117,6 +118,10 @@ class Bench:
     max_step: float = 0.0
     plot: tuple[str, ...] = ()  # quantities to plot: "state:mz", "current:t", "resistance"
     temperature: float | None = None  # circuit temperature [K]; None: the simulators' default 27 degC
+    #: non-empty: the bench cannot be run physically on this device (one line: the finding and the
+    #: measured reason, e.g. the write needs more bias than the calibrated limit); it is reported
+    #: as not applicable and not simulated
+    not_applicable: str = ""
 
     def sweep_values(self) -> np.ndarray:
         term, a, b, step = self.sweep
@@ -170,6 +175,22 @@ def switching_time(state: str, delay: float, direction: int):
 def final_value(state: str):
     def f(tr: Trace) -> float:
         return float(tr.states[state][-1])
+
+    return f
+
+
+def settled_value(state: str, window: float):
+    """Transient: the mean of ``state`` over the last ``window`` seconds (one precession period:
+    a free layer still ringing about its rest state averages to near that state, and the mean does
+    not depend on the phase of the ringing, which integrators drift on over long runs)."""
+
+    def f(tr: Trace) -> float:
+        t, x = tr.t, tr.states[state]
+        t0 = t[-1] - window
+        if t0 <= t[0]:
+            return float(np.mean(x))
+        grid = np.linspace(t0, t[-1], 201)
+        return float(np.trapezoid(np.interp(grid, t, x), grid) / window)
 
     return f
 

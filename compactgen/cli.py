@@ -59,7 +59,8 @@ def _extensions():
     """Subcommands that live with their feature (fit, release, ...): each module may define
     ``add_commands(subparsers)``."""
     out = []
-    for mod in ("compactgen.calibrate.commands", "compactgen.release", "compactgen.thermal_commands"):
+    for mod in ("compactgen.calibrate.commands", "compactgen.release", "compactgen.thermal_commands",
+                "compactgen.card_sweep"):
         try:
             m = __import__(mod, fromlist=["add_commands"])
         except ModuleNotFoundError as exc:
@@ -126,13 +127,12 @@ def load_target(target: str):
 def cmd_verify(args) -> int:
     from .verify import progress_printer, run_suite
 
+    from .verify import parse_simulators
+
+    sims = parse_simulators(args.sim)
     card = load_target(args.target)
-    sims = tuple(s.strip() for s in args.sim.split(",") if s.strip())
-    for s in sims:
-        if s not in ("ngspice", "vacask"):
-            raise CompactgenError(f"--sim: unknown simulator {s!r}; expected ngspice and/or vacask")
     result = verify_card(card, sims, args.report)
-    return 0 if result.passed else VerificationFailed.exit_status
+    return result.exit_status
 
 
 def verify_card(card, sims=("ngspice", "vacask"), report: str | None = None, title: str = ""):

@@ -34,7 +34,7 @@ def corner_table(ir: ModelIR, drive_ratio: float = 3.5, temperatures_c=TEMPERATU
     """Rows (corner, temperature, I_c0, switching time per engine) for a current step of
     ``drive_ratio`` x I_c0(tt, 25 degC)."""
     current = drive_ratio * figures(ir, temperature=25.0 + ZERO_CELSIUS)["i_c0"]
-    inst_params = [("state0", "-1.0"), ("tilt0", format_number(TILT0)), ("phi0", "0.0")]
+    inst_params = [("state0", "-1.0"), ("thermal_rest", "0.0"), ("tilt0", format_number(TILT0)), ("phi0", "0.0")]
     lib_text, va_text = render.ngspice(ir), render.verilog_a(ir)
     tasks, keys = [], []
     for t_c in temperatures_c:

@@ -118,7 +118,8 @@ def simulator_ensembles(ir: ModelIR, tilt: np.ndarray, phi: np.ndarray, current:
     tasks = []
     idx = np.arange(len(tilt))
     for part in chunks(list(idx), chunk):
-        inst = [dict(i=int(j) + 1, params=[("state0", format_number(state0)), ("tilt0", format_number(tilt[j])),
+        inst = [dict(i=int(j) + 1, params=[("state0", format_number(state0)), ("thermal_rest", "0.0"),
+                                           ("tilt0", format_number(tilt[j])),
                                            ("phi0", format_number(phi[j]))]
                      + [(k, format_number(v)) for k, v in extra.items()]) for j in part]
         for sim in simulators:

@@ -248,7 +248,7 @@ class Hoister:
 
     def _name(self, e: sp.Expr) -> sp.Symbol:
         if e not in self.cache:
-            sym = sp.Symbol(f"{self.prefix}{len(self.cache) + 1}", real=True)
+            sym = sp.Symbol(f"{self.prefix}{len(self.cache) + 1}", real=True, **({"positive": True} if e.is_positive else {}))
             self.cache[e] = sym
             self.definitions.append((sym, e))
             self.base.add(sym)
@@ -263,6 +263,8 @@ class Hoister:
             return e
         if self._fixed(e):
             return self._name(e)
+        if isinstance(e, sp.Piecewise):  # keep (expression, condition) pairs whole
+            return sp.Piecewise(*[(self(x), self(c)) for x, c in e.args])
         if isinstance(e, (sp.Add, sp.Mul)):
             fixed = [a for a in e.args if self._fixed(a)]
             rest = [self(a) for a in e.args if not self._fixed(a)]

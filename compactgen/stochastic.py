@@ -115,6 +115,9 @@ class StochasticModel:
             raise ValueError(f"drive must be 'voltage' or 'current', not {drive!r}")
         self.ir = ir
         self.drive_kind = drive
+        overrides = dict(overrides or {})
+        if "thermal_rest" in ir.params:  # the thermal field itself replaces the deterministic rest hold
+            overrides.setdefault("thermal_rest", 0.0)
         self.ref = ReferenceModel(ir, overrides, temperature)
         num = self.ref.num
         names = {str(s) for s, _ in ir.locals}

@@ -54,6 +54,8 @@ class SuiteResult:
     model: str
     runs: list[BenchRun] = field(default_factory=list)
     simulators: tuple[str, ...] = SIMULATORS
+    #: benches that cannot be run physically on this device: (name, title, reason)
+    not_applicable: list[tuple[str, str, str]] = field(default_factory=list)
 
     @property
     def rows(self) -> list[Row]:
@@ -61,7 +63,16 @@ class SuiteResult:
 
     @property
     def passed(self) -> bool:
-        return all(r.passed for r in self.rows)
+        """Every metric of every bench that applies passed (and at least one bench ran)."""
+        return bool(self.rows) and all(r.passed for r in self.rows)
+
+    @property
+    def exit_status(self) -> int:
+        """0: every bench passed; 4: every bench that applies passed, some do not apply to this
+        device (each with its reason); 1: a bench failed."""
+        if not self.passed:
+            return 1
+        return 4 if self.not_applicable else 0
 
     def table(self) -> str:
         head = ["bench", "metric", "reference"] + list(self.simulators) + ["error/tol", "tolerance", "verdict"]
@@ -74,7 +85,10 @@ class SuiteResult:
         out = ["  ".join(str(c).ljust(w) for c, w in zip(row, widths)).rstrip() for row in lines]
         out.insert(1, "  ".join("-" * w for w in widths))
         n_fail = sum(not r.passed for r in self.rows)
-        out.append(f"{len(self.rows) - n_fail} passed, {n_fail} failed")
+        for name, title, reason in self.not_applicable:
+            out.append(f"{name}: not applicable -- {reason}")
+        na = f", {len(self.not_applicable)} benches not applicable" if self.not_applicable else ""
+        out.append(f"{len(self.rows) - n_fail} passed, {n_fail} failed{na}")
         return "\n".join(out)
 
 
@@ -82,6 +96,17 @@ def _num(x: float, unit: str) -> str:
     if x is None or not np.isfinite(x):
         return "nan"
     return f"{x:.6g} {unit}" if unit not in ("1", "") else f"{x:.6g}"
+
+
+def parse_simulators(text: str) -> tuple[str, ...]:
+    """``"ngspice,vacask"`` -> ("ngspice", "vacask"); an unknown name is bad input (exit 2)."""
+    from .errors import InputError
+
+    sims = tuple(s.strip() for s in text.split(",") if s.strip())
+    for s in sims:
+        if s not in SIMULATORS:
+            raise InputError(f"--sim: unknown simulator {s!r}; expected {' and/or '.join(SIMULATORS)}")
+    return sims
 
 
 # ---- deck rendering ---------------------------------------------------------------------------
@@ -177,6 +202,10 @@ def run_suite(ir: ModelIR, benches: list[Bench], simulators=SIMULATORS, progress
 
     say = progress or (lambda msg: None)
     result = SuiteResult(model=ir.name, simulators=tuple(simulators))
+    result.not_applicable = [(b.name, b.title, b.not_applicable) for b in benches if b.not_applicable]
+    for name, _, reason in result.not_applicable:
+        say(f"{name}: not applicable -- {reason}")
+    benches = [b for b in benches if not b.not_applicable]
     traces: dict[str, dict[str, Trace]] = {b.name: {} for b in benches}
     errors: dict[str, dict[str, str]] = {b.name: {} for b in benches}
     with tempfile.TemporaryDirectory(prefix="compactgen-verify-") as tmp:

@@ -55,7 +55,7 @@ def switching_bench(card, i: float, rise: float) -> Bench:
     pulse = Pulse(0.0, v, delay, rise, rise, 6e-9)
     return Bench(f"exact_i{i:g}", f"step to i = {i:g}", "tran", {"t": pulse, "b": Dc(0.0)},
                  [Metric("switching time", "s", switching_time("mz", delay + rise / 2, +1), 1e-2, 0.0, "see test")],
-                 instance={"state0": -1.0, "tilt0": THETA0}, t_stop=delay + rise + 4e-9, t_step=1e-11,
+                 instance={"state0": -1.0, "thermal_rest": 0.0, "tilt0": THETA0}, t_stop=delay + rise + 4e-9, t_step=1e-11,
                  max_step=1e-12)
 
 
@@ -103,7 +103,7 @@ def test_free_ringing_is_kittel_frequency(ngspice, vacask):
     bench = Bench("ringing", "free precession", "tran", {"t": Dc(0.0), "b": Dc(0.0)},
                   [Metric("ringing frequency", "Hz",
                           lambda tr: ringing_frequency(tr.t, tr.states["mx"]), 2e-4, 0.0, "notes 2b")],
-                  instance={"state0": 1.0, "tilt0": theta0}, t_stop=2e-9, t_step=1e-12, max_step=0.2e-12)
+                  instance={"state0": 1.0, "thermal_rest": 0.0, "tilt0": theta0}, t_stop=2e-9, t_step=1e-12, max_step=0.2e-12)
     result = run_suite(ir, [bench])
     for sim, tr in result.runs[0].traces.items():
         assert_allclose(ringing_frequency(tr.t, tr.states["mx"]), expected, rtol=2e-4, err_msg=sim)

@@ -94,12 +94,18 @@ def orientation_specs() -> list[ParamSpec]:
         ParamSpec("state0", "1", 1.0, -1.0, 1.0,
                   "initial orientation: +1 parallel (m_z = +1), -1 antiparallel (sign is taken)", kind="instance",
                   group=g),
+        ParamSpec("thermal_rest", "1", 1.0, 0.0, 1.0,
+                  "1: the free layer rests at its thermal angle exp(-gamma_E/2)/sqrt(Delta(T)) from the axis, held "
+                  "there by an equivalent in-plane field, so a write does not depend on when it comes; 0: no hold, "
+                  "the free layer starts at tilt0 and relaxes toward the axis (plain deterministic LLG)",
+                  kind="instance", group=g),
         ParamSpec("tilt0", "rad", 0.0, 0.0, 1.5,
-                  "initial cone angle of the free layer; 0 = thermal most-probable angle sqrt(1/(2 Delta)) at tnom",
+                  "initial angle of the free layer from its axis when thermal_rest = 0 (0 = exactly on the axis: "
+                  "a spin torque then never starts a write, the deterministic worst case); ignored when thermal_rest = 1",
                   kind="instance", group=g),
         ParamSpec("phi0", "rad", 0.0, -7.0, 7.0,
-                  "initial azimuth of the free layer about z (with tilt0: a drawn thermal initial state)",
-                  kind="instance", group=g),
+                  "initial azimuth of the free layer about z when thermal_rest = 0 (with tilt0: a drawn thermal "
+                  "initial state)", kind="instance", group=g),
     ]
 
 
@@ -178,7 +184,6 @@ def free_layer(parts: Parts, area):
     e_b = parts.d("e_b", thermal.barrier_energy(keff, vol))
     delta_nom = parts.d("delta_nom", thermal.thermal_stability(e_b, P["tnom"]))
     tsc = parts.d("tsc", 1 / (gamma0 * hk_eff))
-    tilt = parts.d("tilt", sp.Piecewise((thermal.thermal_mode_angle(delta_nom), P["tilt0"] <= 0), (P["tilt0"], True)))
     sgn = parts.d("sgn0", sp.Piecewise((1, P["state0"] >= 0), (-1, True)))
     # at the device temperature
     temp = device_temperature(parts)
@@ -191,19 +196,29 @@ def free_layer(parts: Parts, area):
     e_b_t = parts.d("e_b_t", thermal.barrier_energy(keff_t, vol))
     delta_t = parts.d("delta_t", thermal.thermal_stability(e_b_t, temp))
     strength = parts.d(NOISE_STRENGTH, thermal.thermal_field_strength(P["alpha"], ms_t, vol, temp), positive=True)
+    rest = parts.d("rest_on", sp.Piecewise((1, P["thermal_rest"] >= 0.5), (0, True)))
+    theta_th = parts.d("theta_th", thermal.thermal_rest_angle(delta_t), positive=True)
     P["ms"] = ms_t
     parts.nominal.update({ms_t: ms_nom, ku_t: ku, hk_t: hk, hk_eff_t: hk_eff, keff_t: keff, e_b_t: e_b,
                           delta_t: delta_nom})
     return dict(ku=ku, hk=hk, nx=nx, hk_eff=hk_eff, vol=vol, keff=keff, e_b=e_b, delta_nom=delta_nom,
-                tsc=tsc, tilt=tilt, sgn0=sgn, ms_nom=ms_nom, temp=temp, ms_ratio=ms_ratio, ms_t=ms_t, ku_t=ku_t,
+                tsc=tsc, sgn0=sgn, ms_nom=ms_nom, temp=temp, ms_ratio=ms_ratio, ms_t=ms_t, ku_t=ku_t,
                 hk_t=hk_t, hk_eff_t=hk_eff_t, keff_t=keff_t, e_b_t=e_b_t, delta_t=delta_t,
-                noise_strength=strength)
+                noise_strength=strength, rest_on=rest, theta_th=theta_th)
 
 
-def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p, extra_torques=()):
+def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p, extra_torques=(), axial: bool = False):
     """Cartesian macrospin states (m_x, m_y, m_z): non-singular at both poles; |m| = 1 kept by
     the sphere-restoring term at rate 1/tsc.  ``extra_torques`` adds further (h_dl, h_fl, p)
     torques (the torque terms of the explicit LLG are linear in them, so they add).
+
+    Rest state (instance parameter thermal_rest = 1): the free layer starts at rest.  ``axial``
+    says the kind's torques act along z (p = z), so with no in-plane field the layer is axially
+    symmetric: it is then held at its thermal rest angle by the thermal cone drift and integrated
+    in the frame that co-rotates with its precession (physics/macrospin.py), so that rest is a
+    fixed point and a write does not depend on when it comes.  With an in-plane field (or a
+    non-axial torque) the rest state is the static equilibrium in that field.  thermal_rest = 0:
+    plain LLG in the laboratory frame from tilt0/phi0.
     Returns (state symbols, states)."""
     from ..ir import State
 
@@ -214,12 +229,38 @@ def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p, extra_torques=()):
     hx_ = parts.loc(FIELD_LOCALS[0], heff[0])
     hy_ = parts.loc(FIELD_LOCALS[1], heff[1])
     hz_ = parts.loc(FIELD_LOCALS[2], heff[2])
-    rhs = macrospin.llg_explicit(m, (hx_, hy_, hz_), P["alpha"], h_dl, h_fl, p)
+    rest = fl["rest_on"]
+    no_inplane = sp.Piecewise((1, sp.Eq(P["hx"], 0) & sp.Eq(P["hy"], 0)), (0, True))
+    sym = parts.d("axisym", rest * no_inplane) if axial else sp.Integer(0)
+    az = parts.d("c_azimuthal", 1 - sym) if axial else 1
+    rhs = macrospin.llg_explicit(m, (hx_, hy_, hz_), P["alpha"], h_dl, h_fl, p, azimuthal=az)
     for dl, fl_, pp in extra_torques:
-        rhs = rhs + macrospin.llg_explicit(m, (0, 0, 0), P["alpha"], dl, fl_, pp)
+        rhs = rhs + macrospin.llg_explicit(m, (0, 0, 0), P["alpha"], dl, fl_, pp, azimuthal=az)
+    s_th2 = sp.sin(fl["theta_th"]) ** 2
+    if axial:
+        # drift rate whose fixed point is the thermal rest angle (zero field along z), regularised
+        # inside a tenth of that angle
+        eps2 = parts.d("cone_eps2", s_th2 / 100)
+        pull = parts.d("cone_pull", P["alpha"] * gamma0 / (1 + P["alpha"] ** 2) * fl["hk_eff_t"])
+        rate = parts.d("cone_rate", sym * pull * (s_th2 + eps2))
+        rhs = rhs + macrospin.thermal_cone_drift(m, rate, eps2)
     rhs = rhs + macrospin.sphere_restoring(m, 1 / fl["tsc"])
-    init = [sp.sin(fl["tilt"]) * sp.cos(P["phi0"]), sp.sin(fl["tilt"]) * sp.sin(P["phi0"]),
-            fl["sgn0"] * sp.cos(fl["tilt"])]
+    # the rest state: the drift's fixed point (with hz, one fixed-point step from the zero-field
+    # one), or the static equilibrium in the in-plane field
+    h_ip = sp.sqrt(P["hx"] ** 2 + P["hy"] ** 2)
+    s_eq, _ = anisotropy.tilted_rest_state(fl["hk_eff_t"], h_ip, fl["sgn0"] * P["hz"])
+    if axial:
+        ratio = (s_th2 + eps2) * fl["hk_eff_t"]
+        s2_0 = ratio / (fl["hk_eff_t"] + fl["sgn0"] * P["hz"]) - eps2
+        s2_1 = ratio / (fl["hk_eff_t"] + fl["sgn0"] * P["hz"] / sp.sqrt(1 - s2_0)) - eps2
+        s_eq = sp.Piecewise((sp.sqrt(s2_1), sym > 0), (s_eq, True))
+    s_rest = parts.d("sin_rest", s_eq)
+    h_ip_safe = sp.sqrt(P["hx"] ** 2 + P["hy"] ** 2 + sp.Float(1e-30))  # finite where there is no field
+    ux = parts.d("ux_rest", sp.Piecewise((1, sp.Eq(h_ip, 0)), (P["hx"] / h_ip_safe, True)))
+    uy = parts.d("uy_rest", P["hy"] / h_ip_safe)
+    init = [sp.Piecewise((s_rest * ux, rest > 0), (sp.sin(P["tilt0"]) * sp.cos(P["phi0"]), True)),
+            sp.Piecewise((s_rest * uy, rest > 0), (sp.sin(P["tilt0"]) * sp.sin(P["phi0"]), True)),
+            fl["sgn0"] * sp.Piecewise((sp.sqrt(1 - s_rest**2), rest > 0), (sp.cos(P["tilt0"]), True))]
     descs = ["free-layer m_x", "free-layer m_y", "free-layer m_z (+1 = parallel to the reference layer)"]
     states = [State(str(s), s, r, i, dsc) for s, r, i, dsc in zip(m, rhs, init, descs)]
     return m, states

@@ -175,7 +175,7 @@ def sot_benches(ir, values):
                           expect=(figs["r_p"], 1e-6 * figs["r_p"]) if state0 > 0 else None)
                    for v in (-0.5, -0.05, 0.05, 0.5)]
         benches.append(Bench(f"read_{label}", f"junction read: t swept -0.5..0.5 V, w1 = w2 = 0, {label} state "
-                             "(no initial tilt)", "dc", {}, metrics, instance={"state0": state0, "tilt0": 1e-6},
+                             "(no initial tilt)", "dc", {}, metrics, instance={"state0": state0, "thermal_rest": 0.0, "tilt0": 0.0},
                              sweep=sweep, plot=("resistance",)))
     # write pulses: three amplitudes, and the four signs of J * hx
     theta, hx = values["theta_sh"], values["hx"]

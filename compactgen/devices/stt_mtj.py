@@ -12,7 +12,7 @@ import sympy as sp
 from scipy.optimize import brentq
 
 from ..benches import (Bench, Dc, Metric, Pulse, crossing_time, dc_curve_deviation_factory, dc_resistance_at,
-                       extreme_value, final_value, switching_time)
+                       extreme_value, settled_value, switching_time)
 from ..ir import Branch, Figure, ModelIR, Output, Terminal
 from ..physics import macrospin, switching, thermal, torques, tunnelling
 from ..constants import ZERO_CELSIUS
@@ -70,7 +70,7 @@ class SttMtj(DeviceKind):
         h_dl = parts.loc("h_dl", torques.spin_torque_field(j, P["eta"], P["ms"], P["t_free"]),
                          node_scale=fl["hk_eff"])
         h_fl = parts.loc("h_fl", P["xi_fl"] * h_dl)
-        _, states = macrospin_states(parts, fl, h_dl, h_fl, (0, 0, 1))
+        _, states = macrospin_states(parts, fl, h_dl, h_fl, (0, 0, 1), axial=True)
         # key figures (parameter-only)
         r_p = P["ra"] / area
         i_c0 = switching.stt_critical_current(P["alpha"], P["eta"], P["ms"], fl["vol"], fl["hk_eff_t"])
@@ -135,106 +135,197 @@ class SttMtj(DeviceKind):
         return stt_benches(ir, values)
 
 
-# ---- benches ---------------------------------------------------------------------------------
-#: tolerance reasons, stated once
+# ---- benches ----------------------------------------------------------------------------------
+# Every bench follows from the card's own physics: bias range from the calibrated limits, step cap
+# from the FMR period, pulse widths from the reference switching time, settling from the
+# relaxation time.  A bench the device cannot run is marked not applicable with the reason.
 WHY_R = ("DC operating point: only the Newton tolerance (reltol 1e-6) and 17-digit parameter "
          "printing separate the simulators from the reference; 0.1 % bounds both with margin")
-WHY_TSW = ("trapezoidal integration, step cap 1/20 of the precession period: measured errors "
+WHY_TSW = ("trapezoidal integration, step cap 1/25 of the precession period: measured errors "
            "<= 0.3 % in switching time; 1 % leaves margin for the restart after each pulse edge")
 #: circuit temperatures of the temperature benches [degC]: automotive low end, room, hot
 BENCH_TEMPERATURES_C = (-40.0, 25.0, 125.0)
-WHY_FINAL = "after the pulse the free layer relaxes to a pole; 0.02 absolute on m_z"
+WHY_FINAL = ("mean m_z over the last precession period after the pulse: the free layer rests at (or rings "
+             "about) its thermal rest state in the written well; 0.02 absolute; every run must end in the "
+             "expected well (within half its rest m_z)")
+WHY_DELAY = ("the free layer rests at its thermal angle, so a pulse long after the start switches as one at "
+             "the start: every run within 1 % of the reference's prompt switching time")
+#: steps per precession period (the step cap) -- see WHY_TSW
+STEPS_PER_PERIOD = 25
+#: bench pulse edges [s], delay of the prompt pulses [s]
+RISE = 50e-12
+DELAY = 0.1e-9
+#: longest transient a bench may need, in step caps (keeps one card's verify within a minute)
+POINT_BUDGET = 60_000
 
 
-def bias_for_current(model: ReferenceModel, current: float, state0: float) -> float:
-    """Voltage across t-b that drives ``current`` through the junction in its initial state."""
+def step_cap(f_fmr: float) -> float:
+    """The transient step cap: STEPS_PER_PERIOD steps per precession period."""
+    return 1.0 / (STEPS_PER_PERIOD * f_fmr)
+
+
+def bias_for_current(model: ReferenceModel, current: float, v_limit: float) -> float | None:
+    """Voltage across t-b that drives ``current`` through the junction in its initial state;
+    None if that needs more than ``v_limit`` (the calibrated bias limit)."""
     sign = 1.0 if current > 0 else -1.0
     y0 = model.initial
 
     def f(v):
         return model.terminal_currents({"t": v, "b": 0.0}, y0)["t"] - current
 
-    return float(brentq(f, 0.0, sign * 20.0, xtol=1e-15, rtol=1e-14))
+    if f(sign * v_limit) * sign < 0:
+        return None
+    return float(brentq(f, 0.0, sign * v_limit, xtol=1e-15, rtol=1e-14))
+
+
+def rest_mz(ir, state0: float, temperature: float | None = None) -> float:
+    """m_z of the free layer at rest in the well of ``state0`` (thermal rest state)."""
+    kw = {} if temperature is None else {"temperature": temperature}
+    m = ReferenceModel(ir, {"state0": state0}, **kw)
+    return float(m.initial[[s.name for s in ir.states].index("mz")])
+
+
+class WritePlan:
+    """A write pulse at k x I_c0 planned from the card: its bias, width and length, or the reason
+    it does not apply to this device."""
+
+    def __init__(self, ir, values, k: float, direction: int, temperature: float | None = None,
+                 delay: float = DELAY):
+        figs = figures(ir, temperature=temperature)
+        kw = {} if temperature is None else {"temperature": temperature}
+        self.k, self.direction, self.delay = k, direction, delay
+        self.start = -float(direction)
+        self.current = direction * k * figs["i_c0"]
+        self.v = None
+        self.width = self.t_stop = 0.0
+        self.reason = ""
+        self.tsw = float("nan")
+        area = np.pi * values["diameter"] ** 2 / 4
+        j = abs(self.current) / area
+        if j > values["j_max"]:
+            self.reason = (f"{k:g} x I_c0 = {abs(self.current) * 1e6:.4g} uA is {j / 1e10:.4g} MA/cm^2, beyond the "
+                           f"calibrated limit j_max = {values['j_max'] / 1e10:.4g} MA/cm^2")
+            return
+        model = ReferenceModel(ir, {"state0": self.start}, **kw)
+        v_lim = values["v_max"]
+        self.v = bias_for_current(model, self.current, v_lim)
+        if self.v is None:
+            self.reason = (f"{k:g} x I_c0 = {abs(self.current) * 1e6:.4g} uA needs more than the calibrated bias "
+                           f"limit v_max = {v_lim:g} V across the junction (R = {abs(v_lim / model.terminal_currents({'t': v_lim, 'b': 0.0}, model.initial)['t']):.4g} ohm)")
+            return
+        cap = step_cap(figs["f_fmr"])
+        theta = float(np.arccos(min(1.0, abs(rest_mz(ir, self.start, temperature)))))
+        t_est = figs["tau_prec"] * float(switching.switching_integral(k, max(theta, 1e-6)).evalf())
+        settle = float(np.clip(3.0 * figs["tau_prec"], 1e-9, 20e-9))
+        probe_len = 4.0 * t_est + 1e-9
+        if (delay + probe_len + settle) / cap > POINT_BUDGET:
+            self.reason = (f"switching at {k:g} x I_c0 takes about {t_est * 1e9:.4g} ns (alpha = {values['alpha']:.3g}, "
+                           f"precession period {1e12 / figs['f_fmr']:.4g} ps): more than {POINT_BUDGET} time steps")
+            return
+        probe = Pulse(0.0, self.v, delay, RISE, RISE, probe_len)
+        tr = model.transient({"t": probe}, delay + RISE + probe_len, rtol=1e-8, atol=1e-10, max_step=cap * 5)
+        self.tsw = crossing_time(tr.t, tr.states["mz"], 0.0, delay, direction) - delay
+        if not np.isfinite(self.tsw):
+            i_end = abs(tr.currents["t"][-1])
+            self.reason = (f"the reference does not switch at {k:g} x I_c0 ({self.v:+.4g} V) within {probe_len * 1e9:.3g} ns "
+                           f"(about 4x the constant-current estimate): under voltage drive the current falls to "
+                           f"{i_end / figs['i_c0']:.3g} x I_c0 as the resistance changes")
+            return
+        self.width = float(np.ceil(max(2.0 * self.tsw, 1e-9) / 1e-11) * 1e-11)
+        self.t_stop = delay + 2 * RISE + self.width + settle
+        self.cap = cap
+        self.period = 1.0 / figs["f_fmr"]
+        self.final = rest_mz(ir, -self.start, temperature)
+
+    def pulse(self) -> Pulse:
+        return Pulse(0.0, self.v, self.delay, RISE, RISE, self.width)
+
+    def metrics(self, expect_tsw: float | None = None) -> list[Metric]:
+        ms = [Metric("switching time", "s", switching_time("mz", self.delay, self.direction), 1e-2, 0.0,
+                     WHY_DELAY if expect_tsw is not None else WHY_TSW,
+                     expect=None if expect_tsw is None else (expect_tsw, 1e-2 * expect_tsw)),
+              Metric("final m_z", "1", settled_value("mz", self.period), 0.0, 0.02, WHY_FINAL,
+                     expect=(self.final, 0.5 * abs(self.final)))]
+        return ms
 
 
 def stt_benches(ir, values: dict[str, float]) -> list[Bench]:
     figs = figures(ir)
     i_c0 = figs["i_c0"]
-    f_fmr = figs["f_fmr"]
-    tmax = min(2e-12, 1.0 / (25.0 * f_fmr))
     benches: list[Bench] = []
-    sweep = ("t", -1.0, 1.0, 0.05)
+    # R-V: the calibrated bias range, limited by j_max in the parallel (lowest-resistance) state
+    v_lim = min(values["v_max"], values["j_max"] * values["ra"])
+    step = v_lim / 20
+    sweep = ("t", -v_lim, v_lim, step)
+    points = [k * step for k in (-20, -2, 2, 10, 20)]
     for state0, label in ((1.0, "parallel"), (-1.0, "antiparallel")):
-        ref = ReferenceModel(ir, {"state0": state0})
+        inst = {"state0": state0}
+        ref = ReferenceModel(ir, inst)
         vs = Bench("x", "", "dc", {}, [], sweep=sweep).sweep_values()
         ref_i = ref.dc({"t": vs, "b": np.zeros_like(vs)}).currents
-        metrics = [
-            Metric(f"R at {v:+.2f} V", "ohm", dc_resistance_at("t", "b", v), 1e-3, 0.0, WHY_R)
-            for v in (-1.0, -0.1, 0.1, 0.5, 1.0)
-        ]
+        metrics = [Metric(f"R at {v:+.3g} V", "ohm", dc_resistance_at("t", "b", v), 1e-3, 0.0, WHY_R) for v in points]
         metrics.append(Metric("max |I/I_ref - 1| over sweep", "1", dc_curve_deviation_factory(ref_i, "t"),
                               0.0, 1e-3, WHY_R))
-        benches.append(Bench(f"rv_{label}", f"R-V sweep -1..1 V, {label} state", "dc", {}, metrics,
-                             instance={"state0": state0}, sweep=sweep, plot=("resistance",)))
-    rise = 50e-12
-    delay = 0.1e-9
-    for direction, start, label in ((+1, -1.0, "to_p"), (-1, +1.0, "to_ap")):
-        model = ReferenceModel(ir, {"state0": start})
+        benches.append(Bench(f"rv_{label}", f"R-V sweep {-v_lim:+.3g}..{v_lim:+.3g} V (calibrated range), {label} "
+                             "state at rest", "dc", {}, metrics, instance=inst, sweep=sweep, plot=("resistance",)))
+
+    def write_bench(name, title, plan: WritePlan, temperature=None, expect_tsw=None, plot=("state:mz", "current:t")):
+        if plan.reason:
+            return Bench(name, title, "tran", {}, [], instance={"state0": plan.start}, temperature=temperature,
+                         not_applicable=plan.reason)
+        return Bench(name, f"{title} ({abs(plan.current) * 1e6:.4g} uA, {plan.v:+.4g} V)", "tran",
+                     {"t": plan.pulse(), "b": Dc(0.0)}, plan.metrics(expect_tsw), instance={"state0": plan.start},
+                     t_stop=plan.t_stop, t_step=1e-11, max_step=plan.cap, plot=plot, temperature=temperature)
+
+    prompt_2 = None
+    for direction, label in ((+1, "to_p"), (-1, "to_ap")):
         for k in (1.5, 2.0, 3.0):
-            v = bias_for_current(model, direction * k * i_c0, start)
-            width = _pulse_width(model, v, delay, rise)
-            pulse = Pulse(0.0, v, delay, rise, rise, width)
-            t_stop = delay + 2 * rise + width + 1.0e-9
-            metrics = [
-                Metric("switching time", "s", switching_time("mz", delay, direction), 1e-2, 0.0, WHY_TSW),
-                Metric("final m_z", "1", final_value("mz"), 0.0, 0.02, WHY_FINAL, expect=(float(direction), 0.02)),
-            ]
-            benches.append(Bench(
-                f"write_{label}_{k:g}ic0", f"{'AP->P' if direction > 0 else 'P->AP'} write, "
-                f"{k:g} x I_c0 ({k * i_c0 * 1e6:.1f} uA, {v:+.3f} V)",
-                "tran", {"t": pulse, "b": Dc(0.0)}, metrics, instance={"state0": start},
-                t_stop=t_stop, t_step=1e-11, max_step=tmax, plot=("state:mz", "current:t")))
+            plan = WritePlan(ir, values, k, direction)
+            if direction > 0 and k == 2.0:
+                prompt_2 = plan
+            benches.append(write_bench(f"write_{label}_{k:g}ic0",
+                                       f"{'AP->P' if direction > 0 else 'P->AP'} write, {k:g} x I_c0", plan))
+    # the same write long after the start: the rest state holds, so the write does not depend on when it comes
+    if prompt_2 is not None and not prompt_2.reason:
+        late = float(np.clip(5.0 * figs["tau_prec"], 20e-9, 200e-9))
+        plan = WritePlan(ir, values, 2.0, +1, delay=late)
+        benches.append(write_bench("write_to_p_2ic0_late", f"AP->P write, 2 x I_c0, {late * 1e9:.3g} ns after the start "
+                                   "(5 relaxation times, at least 20 ns)", plan, expect_tsw=prompt_2.tsw,
+                                   plot=("state:mz",)))
     # temperature: TMR(T) in the AP resistance, Ms(T) and K(T) in the switching time
     for t_c in BENCH_TEMPERATURES_C:
         t_k = t_c + ZERO_CELSIUS
         tag = f"{t_c:+.0f}C".replace("+", "p").replace("-", "m")
-        metrics = [Metric(f"R at {v:+.2f} V", "ohm", dc_resistance_at("t", "b", v), 1e-3, 0.0, WHY_R)
-                   for v in (-0.5, 0.1, 0.5)]
+        step_t = min(v_lim, 0.5) / 10
+        metrics = [Metric(f"R at {v:+.3g} V", "ohm", dc_resistance_at("t", "b", v), 1e-3, 0.0, WHY_R)
+                   for v in (-10 * step_t, 2 * step_t, 10 * step_t)]
         benches.append(Bench(f"temp_rv_antiparallel_{tag}", f"R-V sweep, antiparallel state, at {t_c:g} degC", "dc", {},
-                             metrics, instance={"state0": -1.0}, sweep=sweep, plot=("resistance",), temperature=t_k))
-        model = ReferenceModel(ir, {"state0": -1.0}, temperature=t_k)
-        i_c0_t = figures(ir, temperature=t_k)["i_c0"]
-        v = bias_for_current(model, 2.0 * i_c0_t, -1.0)
-        width = _pulse_width(model, v, delay, rise)
-        benches.append(Bench(
-            f"temp_write_to_p_2ic0_{tag}", f"AP->P write at {t_c:g} degC, 2 x I_c0(T) ({2 * i_c0_t * 1e6:.1f} uA, {v:+.3f} V)",
-            "tran", {"t": Pulse(0.0, v, delay, rise, rise, width), "b": Dc(0.0)},
-            [Metric("switching time", "s", switching_time("mz", delay, 1), 1e-2, 0.0, WHY_TSW),
-             Metric("final m_z", "1", final_value("mz"), 0.0, 0.02, WHY_FINAL, expect=(1.0, 0.02))],
-            instance={"state0": -1.0}, t_stop=delay + 2 * rise + width + 1.0e-9, t_step=1e-11, max_step=tmax,
-            plot=("state:mz",), temperature=t_k))
+                             metrics, instance={"state0": -1.0}, sweep=("t", -10 * step_t, 10 * step_t, step_t),
+                             plot=("resistance",), temperature=t_k))
+        plan = WritePlan(ir, values, 2.0, +1, temperature=t_k)
+        benches.append(write_bench(f"temp_write_to_p_2ic0_{tag}", f"AP->P write at {t_c:g} degC, 2 x I_c0(T)", plan,
+                                   temperature=t_k, plot=("state:mz",)))
     # sub-threshold: half the critical current must not switch
     model = ReferenceModel(ir, {"state0": -1.0})
-    v = bias_for_current(model, 0.5 * i_c0, -1.0)
-    pulse = Pulse(0.0, v, delay, rise, rise, 10e-9)
-    benches.append(Bench(
-        "hold_0.5ic0", f"sub-threshold pulse 0.5 x I_c0 ({0.5 * i_c0 * 1e6:.1f} uA, {v:+.3f} V) from AP: no switching",
-        "tran", {"t": pulse, "b": Dc(0.0)},
-        [Metric("largest m_z during pulse", "1", extreme_value("mz", +1), 0.0, 0.02,
-                "precession about -z with a shrinking cone; the extreme is a smooth maximum",
-                expect=(-1.0, 0.1)),
-         Metric("final m_z", "1", final_value("mz"), 0.0, 0.02, WHY_FINAL, expect=(-1.0, 0.02))],
-        instance={"state0": -1.0}, t_stop=delay + 2 * rise + 10e-9 + 1e-9, t_step=1e-11, max_step=tmax,
-        plot=("state:mz",)))
+    v = bias_for_current(model, 0.5 * i_c0, values["v_max"])
+    hold = float(np.clip(5.0 * figs["tau_prec"], 10e-9, 50e-9))
+    mz_rest = rest_mz(ir, -1.0)
+    cap = step_cap(figs["f_fmr"])
+    title = f"sub-threshold pulse 0.5 x I_c0 ({0.5 * i_c0 * 1e6:.4g} uA) for {hold * 1e9:.3g} ns from AP: no switching"
+    if v is None:
+        benches.append(Bench("hold_0.5ic0", title, "tran", {}, [], not_applicable=(
+            f"0.5 x I_c0 needs more than the calibrated bias limit v_max = {values['v_max']:g} V")))
+    elif (hold + 1e-9) / cap > POINT_BUDGET:
+        benches.append(Bench("hold_0.5ic0", title, "tran", {}, [], not_applicable=(
+            f"{hold * 1e9:.3g} ns at a step cap of {cap * 1e12:.3g} ps is more than {POINT_BUDGET} time steps")))
+    else:
+        benches.append(Bench(
+            "hold_0.5ic0", f"{title} ({v:+.4g} V)", "tran", {"t": Pulse(0.0, v, DELAY, RISE, RISE, hold), "b": Dc(0.0)},
+            [Metric("largest m_z during pulse", "1", extreme_value("mz", +1), 0.0, 0.02,
+                    "the cone about -z opens only slightly below the threshold; the extreme is a smooth maximum",
+                    expect=(mz_rest, 0.1)),
+             Metric("final m_z", "1", settled_value("mz", 1.0 / figs["f_fmr"]), 0.0, 0.02, WHY_FINAL,
+                    expect=(mz_rest, 0.5 * abs(mz_rest)))],
+            instance={"state0": -1.0}, t_stop=DELAY + 2 * RISE + hold + 1e-9, t_step=1e-11, max_step=cap,
+            plot=("state:mz",)))
     return benches
-
-
-def _pulse_width(model: ReferenceModel, v: float, delay: float, rise: float) -> float:
-    """Pulse long enough to finish switching: three times the reference switching time, at least 2 ns."""
-    probe = Pulse(0.0, v, delay, rise, rise, 40e-9)
-    tr = model.transient({"t": probe}, delay + rise + 40e-9, rtol=1e-8, atol=1e-10)
-    direction = 1 if v > 0 else -1
-    tsw = crossing_time(tr.t, tr.states["mz"], 0.0, delay, direction) - delay
-    if not np.isfinite(tsw):
-        raise ValueError(f"bench set-up: {v:+.3f} V does not switch within 40 ns in the reference")
-    return float(np.ceil(max(3.0 * tsw, 2e-9) / 1e-10) * 1e-10)

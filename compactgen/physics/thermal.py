@@ -22,6 +22,24 @@ def thermal_mode_angle(delta):
     return sp.sqrt(1 / (2 * delta))
 
 
+#: exp(-gamma_E/2), gamma_E = Euler's constant (0.5772156649...)
+_EXP_HALF_EULER = sp.Float(sp.exp(-sp.EulerGamma / 2).evalf(20), 17)
+
+
+def thermal_rest_angle(delta):
+    """The thermal rest angle theta_th = exp(-gamma_E/2)/sqrt(Delta) of a uniaxial macrospin: the
+    geometric mean exp(<ln theta>) of its Boltzmann cone angle.
+
+    Derivation: near a pole the Boltzmann density is p(theta) ~ theta exp(-Delta theta^2)
+    (boltzmann_cone_weight), so theta^2 is exponentially distributed with mean 1/Delta
+    (equipartition: k_B T/2 for each of the two transverse components of E = K_eff V theta^2);
+    for an exponential variable X, <ln X> = ln<X> - gamma_E (a standard property of the exponential
+    distribution, common practice, no source).  Precessional switching times go as
+    ln(pi/(2 theta_0)) (J. Z. Sun, Phys. Rev. B 62, 570 (2000)), so a deterministic start at
+    theta_th gives the ensemble-mean switching time of thermal starts in that regime."""
+    return _EXP_HALF_EULER / sp.sqrt(delta)
+
+
 def neel_brown_time(tau0, delta):
     """Neel-Brown relaxation time tau = tau0 exp(Delta)  [s]
     (L. Neel, Ann. Geophys. 5, 99 (1949), from memory; W. F. Brown, Phys. Rev. 130, 1677 (1963))."""
