@@ -107,13 +107,62 @@ def dmi_saturation_velocity(d, ms):
     return sp.pi / 2 * gamma_e * d / ms
 
 
-def walker_field(alpha, h_k):
-    """Walker breakdown field without DMI, H_W = alpha H_K / 2  [A/m] (Schryer & Walker 1974)."""
+def walker_field(alpha, h_k, h_d, h_x=0, charge=1):
+    """Walker breakdown field of the 1D (q, phi) model with DMI  [A/m]: the largest |H_z| with a
+    steady wall (no current, no pinning, H_y = 0), exact for the model of ``drive_terms``.
+
+    Derivation (PHYSICS 6.3; A. Thiaville, S. Rohart, E. Jue, V. Cros and A. Fert, EPL 100, 57002
+    (2012) for the model and its large-DMI limit): a steady wall needs dphi/dt = 0, i.e. A = alpha B,
+    so gamma0 H_z = alpha B(phi) must be reached by the restoring torque
+    B(phi)/gamma0 = -(H_K/2) sin 2phi - (pi/2)(Q H_D - H_x) sin phi.  With phi = -psi (or pi - psi
+    when Q H_D - H_x < 0) this is (a/2) sin 2psi + c sin psi, a = H_K, c = (pi/2)|Q H_D - H_x|; its
+    maximum sits where a cos 2psi + c cos psi = 0, a quadratic in u = cos psi:
+    2 a u^2 + c u - a = 0, u* = 2a/(c + sqrt(c^2 + 8 a^2)) (the root in (0, 1/sqrt 2]), so
+
+        H_W = alpha sqrt(1 - u*^2) (a u* + c).
+
+    Limits: c = 0 gives alpha H_K/2 (Schryer & Walker, ``walker_field_no_dmi``); a << c gives
+    (pi/2) alpha |H_D - Q H_x| (Thiaville 2012, ``walker_field_dmi_limit`` at H_x = 0).  Without H_y the
+    restoring torque is odd in phi, so the breakdown is the same for both signs of H_z."""
+    a = h_k
+    c = sp.pi / 2 * sp.Abs(charge * h_d - h_x)
+    u = 2 * a / (c + sp.sqrt(c**2 + 8 * a**2))
+    return alpha * sp.sqrt(1 - u**2) * (a * u + c)
+
+
+def walker_field_dmi_limit(alpha, h_d):
+    """Large-DMI approximation of the Walker field, (pi/2) alpha |H_D|  [A/m] (H_K << H_D; Thiaville
+    et al., EPL 100, 57002 (2012)); a comparison figure, below the exact ``walker_field``."""
+    return sp.pi / 2 * alpha * sp.Abs(h_d)
+
+
+def walker_field_no_dmi(alpha, h_k):
+    """Walker breakdown field without DMI (and without in-plane field), H_W = alpha H_K / 2  [A/m]
+    (N. L. Schryer and L. R. Walker, J. Appl. Phys. 45, 5406 (1974), volume/page from memory)."""
     return alpha * h_k / 2
 
 
+def field_velocity_from_angle_rate(h_z, phi_rate, alpha, width):
+    """Wall speed of the 1D model under H_z alone (no current, no pinning, Q = +1)  [m/s]:
+    eliminating B between the two equations of ``drive_terms``/``wall_rates`` gives exactly
+    dq/dt = (Delta/alpha)(gamma0 H_z - dphi/dt) at every instant (PHYSICS 6.2, derived).  With
+    dphi/dt = 0 it is the steady gamma0 Delta H_z/alpha below the Walker field; with the mean
+    2 pi/T over a precession period T it is the mean speed above it."""
+    return width / alpha * (gamma0 * h_z - phi_rate)
+
+
+def precession_period_integral(h_z, alpha, restoring, phi):
+    """Time for the wall angle to advance by 2 pi above the Walker field  [s]:
+    T = ((1 + alpha^2)/gamma0) * Integral_0^{2 pi} dphi / |H_z - alpha b(phi)|, with ``restoring``
+    b(phi) = B/gamma0 [A/m] (the field-driven restoring torque of ``drive_terms``), from
+    dphi/dt = gamma0 (H_z - alpha b(phi))/(1 + alpha^2) (PHYSICS 6.2, derived).  An unevaluated
+    sympy Integral (one harmonic, D = 0, gives twice ``precession_period``); evaluate it numerically."""
+    return (1 + alpha**2) / gamma0 * sp.Integral(1 / sp.Abs(h_z - alpha * restoring), (phi, 0, 2 * sp.pi))
+
+
 def field_velocity(h_z, h_w, alpha, width):
-    """Field-driven wall velocity without DMI or current  [m/s] (Schryer & Walker 1974):
+    """Field-driven wall velocity without DMI or current  [m/s], ``h_w`` = ``walker_field_no_dmi``
+    (Schryer & Walker 1974):
     gamma0 Delta H_z/alpha up to H_W; above it the time average
     (gamma0 Delta/alpha)[H_z - sqrt(H_z^2 - H_W^2)/(1 + alpha^2)] (PHYSICS 6.3, derived)."""
     below = gamma0 * width * h_z / alpha
@@ -122,8 +171,8 @@ def field_velocity(h_z, h_w, alpha, width):
 
 
 def precession_period(h_z, h_w, alpha):
-    """Period of the wall-angle precession above the Walker field, the time phi takes to advance
-    by pi: (1 + alpha^2) pi / (gamma0 sqrt(H_z^2 - H_W^2))  [s] (PHYSICS 6.3, derived)."""
+    """Period of the wall-angle precession above the Walker field without DMI (``h_w`` =
+    ``walker_field_no_dmi``), the time phi takes to advance by pi: (1 + alpha^2) pi / (gamma0 sqrt(H_z^2 - H_W^2))  [s] (PHYSICS 6.3, derived)."""
     return (1 + alpha**2) * sp.pi / (gamma0 * sp.sqrt(h_z**2 - h_w**2))
 
 
