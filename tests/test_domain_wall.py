@@ -219,7 +219,8 @@ def test_reference_solver_breaks_down_at_the_walker_field(name):
             assert abs((q[-1] - q[0]) / t_end) < 0.99 * abs(line)
 
 
-CHECK_6_3D = {  # PHYSICS 6.3, CHECK 6.3d: J -> (speed H_K = 0, speed with H_K, phi_ss); our sign gives v < 0
+CHECK_6_3D = {  # PHYSICS 6.3, CHECK 6.3d: J -> (speed H_K = 0, speed with H_K, phi_ss); PHYSICS writes v < 0 with
+    # sigma = +y; with sigma = -y (Pt below, tests/test_conventions.py) the wall moves along the current: v > 0
     1e11: (19.2295, 19.2076, 3.0572),
     5e11: (91.0134, 88.9786, 2.7471),
     1e12: (158.1455, 149.9471, 2.4621),
@@ -239,7 +240,7 @@ def test_sot_velocity_closed_form_without_hk():
         x = h_sh / (0.3 * h_d)
         assert v_d * x / math.sqrt(1 + x * x) == pytest.approx(v0, rel=2e-5)
         v = num(dwp.sot_velocity_without_hk(h_sh, 0.3, h_d, delta))
-        assert v == pytest.approx(-v0, rel=2e-5)
+        assert v == pytest.approx(v0, rel=2e-5)
     # the half-saturation current density x = 1 (PHYSICS 6.3)
     assert num(dwp.half_saturation_current_density(0.3, h_d, 0.1, MS, T_F)) == pytest.approx(1.434912e12, rel=1e-6)
 
@@ -249,16 +250,16 @@ def test_model_steady_speed_matches_the_1d_table():
     speeds and wall angles of PHYSICS CHECK 6.3d (root = ODE, tol 1e-4 on the speed)."""
     ir, v = dw_ir()
     for j, (_, v_hk, phi_ss) in CHECK_6_3D.items():
-        model = ReferenceModel(ir, {"h_dep": 0.0, "wall0": 1.9e-6})
+        model = ReferenceModel(ir, {"h_dep": 0.0, "wall0": 0.1e-6})
         drive = line_drive(model, j * v["track_width"] * v["t_hm"])
         drives = {n: Pulse(0.0, x, 0.0, 20e-12, 20e-12, 1.0) for n, x in drive.items() if x}
         tr = model.transient(drives, 2e-9, t_eval=np.linspace(0, 2e-9, 2001), rtol=1e-10, atol=1e-12)
         q = tr.states["xw"] * v["track_length"]
         speed = (q[-1] - q[-201]) / (tr.t[-1] - tr.t[-201])
-        assert speed == pytest.approx(-v_hk, rel=1e-4)
-        assert tr.states["phi"][-1] == pytest.approx(phi_ss, abs=2e-4)
+        assert speed == pytest.approx(v_hk, rel=1e-4)
+        assert tr.states["phi"][-1] == pytest.approx(2 * math.pi - phi_ss, abs=2e-4)  # tilted the other way
         # and the algebraic root the benches use
-        assert steady_sot_velocity(model, j, v, phi_ss) == pytest.approx(-v_hk, rel=1e-5)
+        assert steady_sot_velocity(model, j, v, 2 * math.pi - phi_ss) == pytest.approx(v_hk, rel=1e-5)
 
 
 def test_model_field_driven_walker_breakdown():
@@ -342,12 +343,12 @@ def wall_ode(charge, h_z, h_sh, phi0):
 
 def test_both_walls_move_together_under_sot_and_apart_under_field():
     """PHYSICS 6.3: both walls of a domain (Q = +-1, Neel walls of the same chirality) move the same way
-    under the spin Hall torque and opposite ways under H_z; an up -> down wall (Q = +1) moves to -x for
-    theta_SH > 0, D > 0 and J > 0 (CHECK 6.3d sign)."""
+    under the spin Hall torque and opposite ways under H_z; an up -> down wall (Q = +1) moves to +x, along
+    the current, for theta_SH > 0, D > 0 and J > 0 (sigma = -y; tests/test_conventions.py)."""
     h_sh = 2.618942e4  # J = 1e12 A/m^2
     up_down = wall_ode(+1, 0.0, h_sh, math.pi)
     down_up = wall_ode(-1, 0.0, h_sh, 0.0)
-    assert up_down < 0 and down_up < 0
+    assert up_down > 0 and down_up > 0
     assert up_down == pytest.approx(down_up, rel=1e-6)
     assert wall_ode(+1, 2e3, 0.0, math.pi) > 0 > wall_ode(-1, 2e3, 0.0, 0.0)
 

@@ -69,8 +69,11 @@ class DwMtj(DeviceKind):
                       source="Co-based films 10-20 pJ/m (from memory)", card_unit="pJ/m", group=g),
             ParamSpec("dmi", "J/m^2", 1e-3, -1e-2, 1e-2,
                       "interfacial DMI constant D (energy density D (m_z dm_x/dx - m_x dm_z/dx); D > 0: "
-                      "left-handed Neel walls, phi = pi for an up -> down wall)",
-                      source="Pt/Co/AlOx ~1.4-2.8 mJ/m^2, Pt/CoFe/MgO ~0.5 mJ/m^2 (from memory)",
+                      "left-handed Neel walls, phi = pi for an up -> down wall, as in Pt/Co-type stacks with Pt below)",
+                      source="Pt/Co/AlOx ~1.4-2.8 mJ/m^2, Pt/CoFe/MgO ~0.5 mJ/m^2, both left-handed, so D > 0 here "
+                             "(magnitudes from memory; left-handed: S. Emori et al., Nat. Mater. 12, 611 (2013), "
+                             "M. Belmeguenai et al., arXiv:1503.00372 (abstract seen; journal reference PRB 91, 180405 (2015) "
+                             "from memory), who write D_s < 0 in their own sign convention)",
                       card_unit="mJ/m^2", required=True, group=g),
         ]
         mtj = [
@@ -214,8 +217,9 @@ class DwMtj(DeviceKind):
             conventions=CONVENTIONS + [
                 "One up -> down wall (Q = +1): the track is +z (parallel) between w1 and the wall and -z beyond; "
                 "the wall moving towards w2 lowers the read resistance.",
-                "With theta_sh > 0 and dmi > 0, current from w1 to w2 moves the wall towards w1 (against the "
-                "current); the direction reverses with the sign of theta_sh * dmi.",
+                "With theta_sh > 0 (Pt below) and dmi > 0 (left-handed walls), current from w1 to w2 moves the wall "
+                "towards w2 (along the current); the direction reverses with the sign of theta_sh * dmi (beta-Ta or "
+                "beta-W below: against the current).",
                 "Positive hz moves the wall towards w2 (it grows the +z domain).",
                 "Internal node xw carries the wall position as a fraction of track_length (1 V = w2 end), phi the "
                 "wall angle in radians.",
@@ -337,7 +341,7 @@ def dw_benches(ir, values):
                              instance={"wall0": q0}, sweep=("t", -0.2, 0.2, 0.05), plot=("resistance",)))
     # ---- SOT-driven steady velocity (pinning off), linear to saturating regime
     if values["dmi"] != 0.0:
-        sign_v = -np.sign(values["theta_sh"] * values["dmi"])  # wall velocity for current along +x
+        sign_v = _sot_direction(values)  # wall velocity for current along +x
         for k in (0.1, 0.3, 1.0, 3.0):
             j = k * figs["j_half"]
             start = 0.9 * L if sign_v < 0 else 0.1 * L
@@ -366,7 +370,7 @@ def dw_benches(ir, values):
         from .stt_mtj import BENCH_TEMPERATURES_C
 
         j = figs["j_half"]
-        sign_v = -np.sign(values["theta_sh"] * values["dmi"])
+        sign_v = _sot_direction(values)
         for t_c in BENCH_TEMPERATURES_C:
             t_k = t_c + ZERO_CELSIUS
             tag = f"{t_c:+.0f}C".replace("+", "p").replace("-", "m")
@@ -389,7 +393,7 @@ def dw_benches(ir, values):
         return benches
     # ---- pinning: no motion below the depinning current; steps and levels above it
     j_dep = figs["j_dep"]
-    toward_w2 = -float(np.sign(values["theta_sh"] * values["dmi"]))  # current sign that moves the wall to w2
+    toward_w2 = _sot_direction(values)  # current sign that moves the wall to w2
     q_home = round((x_m + 0.5 * l_m) / pitch) * pitch
     inst = {"wall0": q_home}
     model = ReferenceModel(ir, inst)
@@ -489,6 +493,15 @@ def slice_resistance(values: dict, width: float, q: float, v_junction: float) ->
 
     g, _ = quad(slice_g, x0, x1, points=[min(max(q, x0), x1)], epsabs=0, epsrel=1e-13, limit=200)
     return 1.0 / g
+
+
+def _sot_direction(values) -> float:
+    """Sign of the SOT-driven wall velocity for current along +x (w1 to w2): the closed form of
+    physics/domain_wall.py (its sign follows spin_orbit.spin_hall_polarisation), +sign(theta_sh dmi)."""
+    import numpy as np
+
+    v = domain_wall.sot_velocity_without_hk(np.sign(values["theta_sh"]), 1, np.sign(values["dmi"]), 1)
+    return float(np.sign(float(sp.sympify(v).xreplace(const_values()))))
 
 
 def _travel_time(length, width, v_d, k):
