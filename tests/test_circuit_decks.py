@@ -99,21 +99,22 @@ def test_one_transistor_one_mtj_cell(tmp_path, ngspice):
 def test_sot_cell_with_separate_read_and_write_transistors(tmp_path, ngspice):
     c, deck, data = run_deck("sot_2t1mtj_cell.cir", "sot50_demo.toml", tmp_path)
     t = data["time"]
-    ref = reference_on(c, deck, data, {"w1": "wbl", "w2": "w2", "t": "t"}, {"state0": 1.0})
+    ref = reference_on(c, deck, data, {"w1": "wbl", "w2": "w2", "t": "t"}, {"state0": -1.0})
     i_rbl = -data["vrbl#branch"]
     r_sim = [np.interp(x, t, data["t"] - data["xsot.mid"]) / np.interp(x, t, i_rbl) for x in (1.9e-9, 8.9e-9)]
     r_ref = [np.interp(x, ref.t, ref.voltages["t"] - ref.voltages["mid"]) / np.interp(x, ref.t, ref.currents["t"])
              for x in (1.9e-9, 8.9e-9)]
     assert r_sim == pytest.approx(r_ref, rel=1e-3), WHY_R
-    margin = np.interp(1.9e-9, t, i_rbl) / np.interp(8.9e-9, t, i_rbl) - 1
+    margin = np.interp(8.9e-9, t, i_rbl) / np.interp(1.9e-9, t, i_rbl) - 1  # I_P / I_AP - 1
     assert margin > 0.4
-    # the write current is about twice the threshold and the final state obeys sign(J theta_sh hx) = -1
+    # the write current is about twice the threshold and the final state obeys -sign(J theta_sh hx) = +1
+    # (theta_sh < 0, hx > 0, J along +x; tests/test_conventions.py)
     line_j = (data["wbl"] - data["xsot.mid"]) / (c.values["rho_hm"] * c.values["line_length"] / 2
                                                  / (c.values["line_width"] * c.values["t_hm"]))
     assert 1.5 < np.max(line_j) / (c.values["line_width"] * c.values["t_hm"]) / figures(c.ir())["j_c_sot"] < 2.5
-    assert data["xsot.mz"][-1] < -0.99 and ref.states["mz"][-1] < -0.99
-    t_w = crossing_time(t, data["xsot.mz"], 0.0, 2.5e-9, -1)
-    t_w_ref = crossing_time(ref.t, ref.states["mz"], 0.0, 2.5e-9, -1)
+    assert data["xsot.mz"][-1] > 0.99 and ref.states["mz"][-1] > 0.99
+    t_w = crossing_time(t, data["xsot.mz"], 0.0, 2.5e-9, +1)
+    t_w_ref = crossing_time(ref.t, ref.states["mz"], 0.0, 2.5e-9, +1)
     assert t_w - 2.55e-9 == pytest.approx(t_w_ref - 2.55e-9, rel=1e-2), WHY_T
 
 
@@ -121,7 +122,7 @@ def test_sot_cell_with_separate_read_and_write_transistors(tmp_path, ngspice):
 def test_domain_wall_weight_levels(tmp_path, ngspice):
     c, deck, data = run_deck("dw_weight_cell.cir", "dwtrack_demo.toml", tmp_path)
     t = data["time"]
-    ref = reference_on(c, deck, data, {"w1": "w1", "w2": "sl", "t": "t"}, {})
+    ref = reference_on(c, deck, data, {"w1": "sl", "w2": "w2", "t": "t"}, {})
     reads = [0.7e-9 + 3e-9 * k for k in range(5)]
     i_rbl = -data["vrbl#branch"]
     levels = [np.interp(x, t, data["t"] - data["xdw.mid"]) / np.interp(x, t, i_rbl) for x in reads]

@@ -69,8 +69,11 @@ class DwMtj(DeviceKind):
                       source="Co-based films 10-20 pJ/m (from memory)", card_unit="pJ/m", group=g),
             ParamSpec("dmi", "J/m^2", 1e-3, -1e-2, 1e-2,
                       "interfacial DMI constant D (energy density D (m_z dm_x/dx - m_x dm_z/dx); D > 0: "
-                      "left-handed Neel walls, phi = pi for an up -> down wall)",
-                      source="Pt/Co/AlOx ~1.4-2.8 mJ/m^2, Pt/CoFe/MgO ~0.5 mJ/m^2 (from memory)",
+                      "left-handed Neel walls, phi = pi for an up -> down wall, as in Pt/Co-type stacks with Pt below)",
+                      source="Pt/Co/AlOx ~1.4-2.8 mJ/m^2, Pt/CoFe/MgO ~0.5 mJ/m^2, both left-handed, so D > 0 here "
+                             "(magnitudes from memory; left-handed: S. Emori et al., Nat. Mater. 12, 611 (2013), "
+                             "M. Belmeguenai et al., arXiv:1503.00372 (abstract seen; journal reference PRB 91, 180405 (2015) "
+                             "from memory), who write D_s < 0 in their own sign convention)",
                       card_unit="mJ/m^2", required=True, group=g),
         ]
         mtj = [
@@ -189,8 +192,16 @@ class DwMtj(DeviceKind):
             Figure("j_dep", sp.Abs(domain_wall.depinning_current_density(P["h_dep"], P["theta_sh"], P["ms"],
                                                                          P["t_free"])),
                    "A/m^2", "depinning current density of a Neel wall (rigid wall)"),
-            Figure("h_walker", domain_wall.walker_field(P["alpha"], h_kw), "A/m",
-                   "Walker field without DMI, alpha H_K/2", "N. L. Schryer and L. R. Walker, J. Appl. Phys. 45, 5406 (1974)"),
+            Figure("h_walker", domain_wall.walker_field(P["alpha"], h_kw, h_d, P["hx"]), "A/m",
+                   "Walker field of this model: the largest |hz| with a steady wall (DMI, wall anisotropy and hx "
+                   "included, hy = 0, no current); exact maximum of the 1D restoring torque",
+                   "A. Thiaville et al., EPL 100, 57002 (2012) for the model; closed form derived (PHYSICS 6.3)"),
+            Figure("h_walker_dmi_limit", domain_wall.walker_field_dmi_limit(P["alpha"], h_d), "A/m",
+                   "comparison only: large-DMI approximation (pi/2) alpha H_D (H_K and hx neglected)",
+                   "A. Thiaville et al., EPL 100, 57002 (2012)"),
+            Figure("h_walker_no_dmi", domain_wall.walker_field_no_dmi(P["alpha"], h_kw), "A/m",
+                   "comparison only: Walker field the track would have without DMI, alpha H_K/2",
+                   "N. L. Schryer and L. R. Walker, J. Appl. Phys. 45, 5406 (1974)"),
             Figure("levels", P["mtj_length"] / P["pin_pitch"], "1", "pinning sites under the junction"),
         ]
         ir = ModelIR(
@@ -206,8 +217,9 @@ class DwMtj(DeviceKind):
             conventions=CONVENTIONS + [
                 "One up -> down wall (Q = +1): the track is +z (parallel) between w1 and the wall and -z beyond; "
                 "the wall moving towards w2 lowers the read resistance.",
-                "With theta_sh > 0 and dmi > 0, current from w1 to w2 moves the wall towards w1 (against the "
-                "current); the direction reverses with the sign of theta_sh * dmi.",
+                "With theta_sh > 0 (Pt below) and dmi > 0 (left-handed walls), current from w1 to w2 moves the wall "
+                "towards w2 (along the current); the direction reverses with the sign of theta_sh * dmi (beta-Ta or "
+                "beta-W below: against the current).",
                 "Positive hz moves the wall towards w2 (it grows the +z domain).",
                 "Internal node xw carries the wall position as a fraction of track_length (1 V = w2 end), phi the "
                 "wall angle in radians.",
@@ -234,6 +246,8 @@ WHY_V = ("wall speed from the slope of q(t) over a window after the wall angle h
 WHY_V_EXPECT = ("; every run must meet the steady state of the 1D model (root of dphi/dt = 0, H_K included) within "
                 "0.5 % (the window starts where the reference is within 1e-4 of it)")
 WHY_VW_EXPECT = ("; every run must meet Schryer & Walker's closed form (no DMI, no pinning) within 0.5 %")
+WHY_VWD_EXPECT = ("; every run must meet the exact 1D result within 0.5 %: gamma0 Delta hz/alpha below the Walker "
+                  "field, (Delta/alpha)(gamma0 hz - 2 pi/T) above it with the period T by quadrature")
 WHY_PIN = ("the wall sits in a pinning well and relaxes back; positions agree to far better than 1 % of the pinning "
            "pitch")
 WHY_LEVEL = ("the wall ends each step in a pinning minimum, so the read resistance depends on which well it reached, "
@@ -327,7 +341,7 @@ def dw_benches(ir, values):
                              instance={"wall0": q0}, sweep=("t", -0.2, 0.2, 0.05), plot=("resistance",)))
     # ---- SOT-driven steady velocity (pinning off), linear to saturating regime
     if values["dmi"] != 0.0:
-        sign_v = -np.sign(values["theta_sh"] * values["dmi"])  # wall velocity for current along +x
+        sign_v = _sot_direction(values)  # wall velocity for current along +x
         for k in (0.1, 0.3, 1.0, 3.0):
             j = k * figs["j_half"]
             start = 0.9 * L if sign_v < 0 else 0.1 * L
@@ -356,7 +370,7 @@ def dw_benches(ir, values):
         from .stt_mtj import BENCH_TEMPERATURES_C
 
         j = figs["j_half"]
-        sign_v = -np.sign(values["theta_sh"] * values["dmi"])
+        sign_v = _sot_direction(values)
         for t_c in BENCH_TEMPERATURES_C:
             t_k = t_c + ZERO_CELSIUS
             tag = f"{t_c:+.0f}C".replace("+", "p").replace("-", "m")
@@ -373,34 +387,13 @@ def dw_benches(ir, values):
                 [Metric("wall velocity", "m/s", mean_rate("xw", t_a, t_b, L), 2e-3, 0.0, WHY_V)],
                 instance=inst, t_stop=t_b + 0.02e-9, t_step=1e-11, max_step=tmax, plot=("state:xw",),
                 temperature=t_k))
-    # ---- field-driven (no DMI, no pinning): below and above the Walker field
-    h_w = figs["h_walker"]
-    for k in (0.5, 2.0):
-        hz = k * h_w
-        inst = {"h_dep": 0.0, "dmi": 0.0, "hz": hz, "wall0": 0.2 * L}
-        model = ReferenceModel(ir, inst)
-        closed = float(domain_wall.field_velocity(hz, h_w, values["alpha"], dw).xreplace(model.num))
-        if k < 1:
-            t_a, t_b = _settled_window(_probe(model, {}, 8e-9), L, closed)
-            metric = mean_rate("xw", t_a, t_b, L)
-            how = f"speed over [{t_a * 1e9:.3f}, {t_b * 1e9:.3f}] ns"
-            t_stop = t_b + 0.02e-9
-        else:
-            period = float(domain_wall.precession_period(hz, h_w, values["alpha"]).xreplace(model.num))
-            metric = mean_rate_per_turn("xw", "phi", 0.05e-9, 1, L)
-            how = "mean speed over one full turn of the wall angle"
-            t_stop = 0.05e-9 + 2.2 * period
-        benches.append(Bench(
-            f"field_{k:g}hw", f"field-driven wall, no DMI, no pinning: hz = {k:g} x H_W = {hz * 4e-4 * np.pi:.3f} mT "
-            f"({'below' if k < 1 else 'above'} the Walker field); {how}; Schryer & Walker: {closed:.5g} m/s",
-            "tran", {}, [Metric("wall velocity", "m/s", metric, 2e-3, 0.0, WHY_V + WHY_VW_EXPECT,
-                                expect=(closed, 5e-3 * abs(closed)))],
-            instance=inst, t_stop=t_stop, t_step=1e-11, max_step=tmax, plot=("state:xw", "state:phi")))
+    # ---- field-driven, no pinning: below and above the Walker field of this card (DMI included)
+    benches += _field_benches(ir, values, figs)
     if values["dmi"] == 0.0 or values["h_dep"] <= 0.0:
         return benches
     # ---- pinning: no motion below the depinning current; steps and levels above it
     j_dep = figs["j_dep"]
-    toward_w2 = -float(np.sign(values["theta_sh"] * values["dmi"]))  # current sign that moves the wall to w2
+    toward_w2 = _sot_direction(values)  # current sign that moves the wall to w2
     q_home = round((x_m + 0.5 * l_m) / pitch) * pitch
     inst = {"wall0": q_home}
     model = ReferenceModel(ir, inst)
@@ -417,6 +410,69 @@ def dw_benches(ir, values):
         instance=inst, t_stop=4e-9, t_step=1e-11, max_step=2e-12, plot=("state:xw", "current:w1")))
     benches.append(_pulse_train(ir, values, figs, toward_w2))
     benches.append(_long_pulse(ir, values, figs, toward_w2))
+    return benches
+
+
+def _field_benches(ir, values, figs) -> list:
+    """Field-driven wall, pinning off, at 0.5 and 2 x the card's Walker field h_walker (DMI, wall
+    anisotropy and hx included; hy set to 0 where the card has one), against the exact 1D results:
+    gamma0 Delta hz/alpha below it, (Delta/alpha)(gamma0 hz - 2 pi/T) above it with the precession
+    period T by quadrature (physics/domain_wall.py).  Then, with dmi = 0 on the instance (and hx = hy = 0),
+    the same at 0.5 and 2 x h_walker_no_dmi against Schryer & Walker's closed forms."""
+    import numpy as np
+
+    from ..benches import Bench, Metric, mean_rate, mean_rate_per_turn
+    from ..reference import ReferenceModel
+
+    L = values["track_length"]
+    dw = figs["wall_width"]
+    alpha = values["alpha"]
+    tmax = 1e-12
+    phi = sp.Symbol("phi", real=True)
+    cases = [("", figs["h_walker"], {"hy": 0.0} if values["hy"] else {})]
+    if values["dmi"] != 0.0:
+        zero = {n: 0.0 for n in ("hx", "hy") if values[n]}
+        cases.append(("_nodmi", figs["h_walker_no_dmi"], dict(zero, dmi=0.0)))
+    benches = []
+    for tag, h_w, extra in cases:
+        for k in (0.5, 2.0):
+            hz = k * h_w
+            inst = dict({"h_dep": 0.0, "hz": hz, "wall0": 0.2 * L}, **extra)
+            model = ReferenceModel(ir, inst)
+            if tag:  # no DMI: Schryer & Walker's closed forms
+                closed = float(domain_wall.field_velocity(hz, h_w, alpha, dw).xreplace(model.num))
+                source = "Schryer & Walker"
+            else:  # the exact 1D results with DMI (physics/domain_wall.py)
+                rate = 0.0
+                if k > 1:
+                    _, b = domain_wall.drive_terms(phi, 0.0, 0.0, 0.0, _num(model, "h_kwall"), _num(model, "h_dmi"),
+                                                   values["hx"], 0.0, 0.0)
+                    period = float(sp.N(domain_wall.precession_period_integral(hz, alpha, b / gamma0, phi)
+                                        .xreplace(model.num), 15))
+                    rate = 2 * np.pi / period
+                closed = float(domain_wall.field_velocity_from_angle_rate(hz, rate, alpha, dw).xreplace(model.num))
+                source = "1D model, exact"
+            if k < 1:
+                probe = _probe(model, {}, min(8e-9, 0.5 * L / abs(closed)))
+                t_a, t_b = _settled_window(probe, L, closed)
+                metric = mean_rate("xw", t_a, t_b, L)
+                how = f"speed over [{t_a * 1e9:.3f}, {t_b * 1e9:.3f}] ns"
+                t_stop = t_b + 0.02e-9
+            else:
+                if tag:
+                    period = 2 * float(domain_wall.precession_period(hz, h_w, alpha).xreplace(model.num))
+                metric = mean_rate_per_turn("xw", "phi", 0.05e-9, 1, L)
+                how = "mean speed over one full turn (2 pi) of the wall angle"
+                t_stop = 0.05e-9 + 1.1 * period
+            which = "h_walker_no_dmi, with dmi = 0" if tag else "h_walker"
+            benches.append(Bench(
+                f"field{tag}_{k:g}hw", f"field-driven wall{', no DMI' if tag else ''}, no pinning: hz = {k:g} x "
+                f"{which} = {hz * 4e-4 * np.pi:.3f} mT ({'below' if k < 1 else 'above'} the Walker field); {how}; "
+                f"{source}: {closed:.5g} m/s",
+                "tran", {}, [Metric("wall velocity", "m/s", metric, 2e-3, 0.0,
+                                    WHY_V + (WHY_VW_EXPECT if tag else WHY_VWD_EXPECT),
+                                    expect=(closed, 5e-3 * abs(closed)))],
+                instance=inst, t_stop=t_stop, t_step=1e-11, max_step=tmax, plot=("state:xw", "state:phi")))
     return benches
 
 
@@ -437,6 +493,15 @@ def slice_resistance(values: dict, width: float, q: float, v_junction: float) ->
 
     g, _ = quad(slice_g, x0, x1, points=[min(max(q, x0), x1)], epsabs=0, epsrel=1e-13, limit=200)
     return 1.0 / g
+
+
+def _sot_direction(values) -> float:
+    """Sign of the SOT-driven wall velocity for current along +x (w1 to w2): the closed form of
+    physics/domain_wall.py (its sign follows spin_orbit.spin_hall_polarisation), +sign(theta_sh dmi)."""
+    import numpy as np
+
+    v = domain_wall.sot_velocity_without_hk(np.sign(values["theta_sh"]), 1, np.sign(values["dmi"]), 1)
+    return float(np.sign(float(sp.sympify(v).xreplace(const_values()))))
 
 
 def _travel_time(length, width, v_d, k):

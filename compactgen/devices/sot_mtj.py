@@ -2,9 +2,11 @@
 
 Ports ``w1 w2 t`` (devices/write_line.py): the free layer stands on the middle of the write
 line; the junction's bottom is that point of the line (internal node ``mid``).  The spin Hall
-current of the line exerts a damping-like torque with p = sigma = +y (signed theta_sh) and a
-field-like one (ratio xi_sot); an in-plane bias field hx along the current makes the switching
-deterministic: a current above threshold leaves m_z = sign(J theta_sh hx).  The read current
+current of the line exerts a damping-like torque with p = sigma = -y for theta_sh > 0 and current
+along +x (``spin_orbit.spin_hall_polarisation``, signed theta_sh) and a field-like one (ratio
+xi_sot, field along sigma); an in-plane bias field hx along the current makes the switching
+deterministic: a current above threshold leaves m_z = -sign(J theta_sh hx)
+(``spin_orbit.switched_state``).  The read current
 through the junction adds a Slonczewski torque (efficiency eta) as in the stt-mtj kind.
 """
 from __future__ import annotations
@@ -77,7 +79,8 @@ class SotMtj(DeviceKind):
         # electrons leave the free layer: its Slonczewski torque favours the antiparallel state
         j_mtj = parts.loc("j_mtj", i_tm / area)
         h_stt = parts.loc("h_stt", torques.spin_torque_field(-j_mtj, P["eta"], P["ms"], P["t_free"]))
-        _, states = macrospin_states(parts, fl, h_sh, P["xi_sot"] * h_sh, (0, 1, 0),
+        sigma = tuple(spin_orbit.spin_hall_polarisation())
+        _, states = macrospin_states(parts, fl, h_sh, P["xi_sot"] * h_sh, sigma,
                                      extra_torques=[(h_stt, 0, (0, 0, 1))])
         parts.constraints.append((P["line_width"] - P["diameter"], "line_width must be at least the pillar diameter"))
         parts.constraints.append((P["line_length"] - P["diameter"],
@@ -112,8 +115,9 @@ class SotMtj(DeviceKind):
                      Output("jdens", j_line, "A/m^2", "current density in the write line under the free layer")],
             figures=figures,
             conventions=CONVENTIONS + [
-                "A write current above threshold leaves m_z = sign(J * theta_sh * hx): with theta_sh > 0 and hx > 0, "
-                "current from w1 to w2 writes parallel (m_z = +1), from w2 to w1 antiparallel.",
+                "A write current above threshold leaves m_z = -sign(J * theta_sh * hx): with theta_sh > 0 (Pt) and "
+                "hx > 0, current from w1 to w2 writes antiparallel (m_z = -1), from w2 to w1 parallel; with "
+                "theta_sh < 0 (beta-Ta, beta-W) the other way round.",
                 "Read current from t to mid (electrons from the free into the reference layer) favours antiparallel "
                 "through the spin-transfer torque (efficiency eta).",
                 "Instance parameter state0 = +1 starts the free layer parallel, -1 antiparallel; tilt0 sets the "
@@ -148,7 +152,7 @@ WHY_JSW_EXPECT = ("every run must meet the exact torque-balance threshold within
 
 DELAY = 0.1e-9
 RISE = 0.05e-9
-FALL = 1.0e-9  # a trailing edge the free layer can follow: the final state then obeys sign(J theta_sh hx)
+FALL = 1.0e-9  # a trailing edge the free layer can follow: the final state then obeys -sign(J theta_sh hx)
 WIDTH = 2.0e-9
 RAMP = 20e-9
 
@@ -182,7 +186,7 @@ def sot_benches(ir, values):
     cases = [(1.5, -1, 1), (2.0, -1, 1), (3.0, -1, 1), (2.0, 1, 1), (2.0, 1, -1), (2.0, -1, -1)]
     for k, jsign, hsign in cases:
         hx_b = hsign * hx
-        final = float(np.sign(jsign * theta * hx_b))
+        final = float(spin_orbit.switched_state(jsign, theta, hx_b))
         inst = {"state0": -final}
         if hsign < 0:
             inst["hx"] = hx_b
@@ -196,7 +200,7 @@ def sot_benches(ir, values):
         benches.append(Bench(
             f"write_{'p' if final > 0 else 'ap'}_{k:g}jc{'_hxneg' if hsign < 0 else ''}",
             f"write pulse {jsign * k:+g} x J_c ({jsign * k * jc / 1e10:+.1f} MA/cm^2 along +x, w1 {drive['w1']:+.3f} V, "
-            f"w2 {drive['w2']:+.3f} V), hx {'-' if hsign < 0 else '+'}|hx|: final m_z = sign(J theta_sh hx) = {final:+g}",
+            f"w2 {drive['w2']:+.3f} V), hx {'-' if hsign < 0 else '+'}|hx|: final m_z = -sign(J theta_sh hx) = {final:+g}",
             "tran", drives, metrics, instance=inst, t_stop=DELAY + RISE + WIDTH + FALL + 1.5e-9, t_step=1e-11,
             max_step=tmax, plot=("state:mz", "current:w1")))
     # temperature: Ms(T), K(T) and TMR(T) move the threshold and the switching time; 2 x J_c(T)
@@ -204,7 +208,7 @@ def sot_benches(ir, values):
         t_k = t_c + ZERO_CELSIUS
         tag = f"{t_c:+.0f}C".replace("+", "p").replace("-", "m")
         jc_t = figures(ir, temperature=t_k)["j_c_sot"]
-        final = float(np.sign(-theta * hx))
+        final = float(spin_orbit.switched_state(-1, theta, hx))
         model = ReferenceModel(ir, {"state0": -final}, temperature=t_k)
         drive = line_drive(model, -2.0 * jc_t * cross)
         drives = {n: (Pulse(0.0, v, DELAY, RISE, FALL, WIDTH) if v else Dc(0.0)) for n, v in drive.items()}
@@ -219,7 +223,7 @@ def sot_benches(ir, values):
             plot=("state:mz",), temperature=t_k))
     # quasi-static threshold: a slow ramp to 1.2 J_c
     final = -1.0
-    jsign = float(np.sign(final * theta * hx))
+    jsign = final * float(spin_orbit.switched_state(1, theta, hx))  # the current sign that writes m_z = final
     model = ReferenceModel(ir, {"state0": -final})
     drive = line_drive(model, jsign * 1.2 * jc * cross)
     drives = {n: (Pwl(((0.0, 0.0), (RAMP, v))) if v else Dc(0.0)) for n, v in drive.items()}

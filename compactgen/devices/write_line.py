@@ -28,14 +28,15 @@ def heavy_metal_specs() -> list[ParamSpec]:
         ParamSpec("t_hm", "m", 5 * NM, 0.5 * NM, 100 * NM, "heavy-metal line thickness", card_unit="nm",
                   required=True, group=g),
         ParamSpec("theta_sh", "1", 0.3, -2.0, 2.0,
-                  "signed effective spin Hall angle: > 0 gives spin polarisation +y for current along +x "
-                  "(Pt below the ferromagnet); the sign flips for beta-Ta or beta-W, or with the metal on top",
+                  "signed effective spin Hall angle, > 0 for Pt below the ferromagnet: spin polarisation "
+                  "sigma = x_hat cross z_hat = -y for current along +x; the sign flips for beta-Ta or beta-W, or "
+                  "with the metal on top",
                   source="Pt ~+0.06-0.1: L. Liu et al., PRL 106, 036601 (2011); beta-Ta ~-0.12..-0.15: L. Liu et al., "
                          "Science 336, 555 (2012); beta-W ~-0.3: C.-F. Pai et al., APL 101, 122404 (2012) "
                          "(signs and journal references from memory)",
                   required=True, group=g),
         ParamSpec("xi_sot", "1", 0.0, -5.0, 5.0,
-                  "field-like to damping-like ratio of the spin-orbit torque (field-like term along y)",
+                  "field-like to damping-like ratio of the spin-orbit torque (the field-like field xi_sot H_SH points along sigma)",
                   source="stack dependent, ~0 up to >1 in Ta/CoFeB (from memory)", group=g),
     ]
 
@@ -89,8 +90,9 @@ CONVENTIONS = [
     "Ports in order: w1, w2 (write-line ends; +x runs from w1 to w2), t (junction top electrode, "
     "reference-layer side). The junction bottom is the write line itself (internal node mid), so read "
     "and write currents share it.",
-    "Spin polarisation of the spin Hall current is sigma = +y for current along +x and theta_sh > 0 "
-    "(signed effective spin Hall angle).",
+    "Spin polarisation of the spin Hall current injected into the ferromagnet (heavy metal below) is "
+    "sigma = sign(theta_sh) (x_hat cross z_hat) = -sign(theta_sh) y for current along +x (from w1 to w2); "
+    "theta_sh > 0 for Pt, < 0 for beta-Ta and beta-W.",
     "Reference layer along +z: m_z = +1 under the junction is the parallel (low-resistance) state.",
 ]
 
