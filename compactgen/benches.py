@@ -122,6 +122,11 @@ class Bench:
     #: measured reason, e.g. the write needs more bias than the calibrated limit); it is reported
     #: as not applicable and not simulated
     not_applicable: str = ""
+    #: non-empty: a finding about the device that the bench set-up measured in the reference (e.g. the
+    #: free layer rings back into its old well, so the final state is compared, not asserted)
+    finding: str = ""
+    #: the reference trace, when the set-up already computed it (verify reuses it)
+    cached_reference: object = field(default=None, repr=False, compare=False)
 
     def sweep_values(self) -> np.ndarray:
         term, a, b, step = self.sweep

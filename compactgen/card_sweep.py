@@ -43,6 +43,8 @@ DRAWN = {
 RELATIONS = {
     "sot-mtj": (("line_width", "diameter", 1.0), ("line_length", "diameter", 1.5)),
 }
+#: bias limit across the barrier of every drawn card [V]
+CALIBRATED_V_MAX = 1.5
 #: lower end of the log-uniform draw, relative to the upper end, where a range starts at 0 or
 #: below (a magnitude of 1e-3 of the largest allowed value is as small as a real stack goes)
 SPAN = 1e-3
@@ -88,6 +90,11 @@ def draw_values(kind_key: str, rng: np.random.Generator) -> dict[str, float]:
         lo = max(specs[a].lo, factor * values[b])
         if lo < specs[a].hi:
             values[a] = float(math.exp(rng.uniform(math.log(lo), math.log(specs[a].hi))))
+    # the calibrated range is the user's statement about their own data, not a device property: the
+    # sweep states no current-density limit (the top of its range) and a bias limit below typical
+    # MgO breakdown (common practice, no source), so that write benches apply wherever the device allows
+    values["j_max"] = specs["j_max"].hi
+    values["v_max"] = CALIBRATED_V_MAX
     if kind_key == "dw-mtj":  # the junction inside the track: start and length drawn from the track
         track = values["track_length"]
         values["mtj_length"] = float(track * rng.uniform(0.05, 0.5))

@@ -33,7 +33,7 @@ def main(argv: list[str] | None = None) -> int:
 
     p = sub.add_parser("verify", help="run the bench suite on the reference, ngspice and VACASK")
     p.add_argument("target", help="a card, or a folder written by `compactgen build`")
-    p.add_argument("--sim", default="ngspice,vacask", help="simulators, comma separated (default: both)")
+    p.add_argument("--sim", default="ngspice,vacask", help="simulators, comma separated (default: both); 'none': the reference solver alone")
     p.add_argument("--report", help="write an HTML report with plots to this file")
     p.set_defaults(func=cmd_verify)
 

@@ -59,6 +59,9 @@ def _evaluate(expr: sp.Expr, num: dict, what: str) -> float:
     try:
         return float(value.evalf(17))
     except TypeError as exc:
+        z = complex(value.evalf(17)) if value.is_number else None
+        if z is not None and z.imag != 0:  # e.g. a threshold past the point where the state exists
+            return float("nan")
         raise ValueError(f"cannot evaluate {what}: {value}") from exc
 
 

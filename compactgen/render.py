@@ -188,18 +188,6 @@ def ngspice(ir: ModelIR) -> str:
     for e in ([e for _, e in ir.locals] + [st.rhs for st in ir.states] + [st.initial for st in ir.states]
               + [b.current for b in ir.branches]):
         used |= e.free_symbols & tdep
-    # a temperature-dependent intermediate that two node expressions share gets a node of its own
-    # too (else its whole chain is repeated inside each of them)
-    tdefs = {sym: e for sym, e in ir.derived if sym in tdep}
-    while True:
-        shared_counts: dict[sp.Symbol, int] = {}
-        for u in used:
-            for x in tdefs[u].free_symbols & tdep:
-                shared_counts[x] = shared_counts.get(x, 0) + 1
-        more = {x for x, n in shared_counts.items() if n >= 2 and x not in used}
-        if not more:
-            break
-        used |= more
     tnodes = []
     # each node carries value/scale with scale = |value| at the card's values and tnom, so node
     # voltages are O(1) whatever the quantity (a wall width of 5e-9 m on a node would sit below
@@ -211,9 +199,9 @@ def ngspice(ir: ModelIR) -> str:
     for sym, e in ir.derived:
         if sym in tdep:
             ic_inline[sym] = e.xreplace({ir.temperature: t_ref_sym}).xreplace(ic_inline)
+    # every node is computed from the temperature alone (not from other nodes, which hold any
+    # value during the first Newton iterations of an operating point)
     for sym, e in ir.derived:
-        if sym in tdep:
-            inline[sym] = e.xreplace(inline)  # earlier nodes, not their expressions
         if sym in used:
             scale = abs(ref_num.get(sym, 1.0)) or 1.0
             tnodes.append(dict(name=f"tq_{sym}", code=spice_wrap(pr.code(compact(inline[sym] / scale)))))

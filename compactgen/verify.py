@@ -56,6 +56,8 @@ class SuiteResult:
     simulators: tuple[str, ...] = SIMULATORS
     #: benches that cannot be run physically on this device: (name, title, reason)
     not_applicable: list[tuple[str, str, str]] = field(default_factory=list)
+    #: findings about the device measured while setting benches up: (name, finding)
+    findings: list[tuple[str, str]] = field(default_factory=list)
 
     @property
     def rows(self) -> list[Row]:
@@ -87,6 +89,8 @@ class SuiteResult:
         n_fail = sum(not r.passed for r in self.rows)
         for name, title, reason in self.not_applicable:
             out.append(f"{name}: not applicable -- {reason}")
+        for name, finding in self.findings:
+            out.append(f"{name}: finding -- {finding}")
         na = f", {len(self.not_applicable)} benches not applicable" if self.not_applicable else ""
         out.append(f"{len(self.rows) - n_fail} passed, {n_fail} failed{na}")
         return "\n".join(out)
@@ -102,6 +106,8 @@ def parse_simulators(text: str) -> tuple[str, ...]:
     """``"ngspice,vacask"`` -> ("ngspice", "vacask"); an unknown name is bad input (exit 2)."""
     from .errors import InputError
 
+    if text.strip() == "none":  # the reference solver alone (a quick look; not a verification)
+        return ()
     sims = tuple(s.strip() for s in text.split(",") if s.strip())
     for s in sims:
         if s not in SIMULATORS:
@@ -183,6 +189,8 @@ def _trace_vacask(ir: ModelIR, bench: Bench, plots: dict) -> Trace:
 
 
 def reference_trace(ir: ModelIR, bench: Bench) -> Trace:
+    if bench.cached_reference is not None:
+        return bench.cached_reference
     model = ReferenceModel(ir, bench.instance, **({} if bench.temperature is None else
                                                      {"temperature": bench.temperature}))
     if bench.analysis == "dc":
@@ -203,8 +211,11 @@ def run_suite(ir: ModelIR, benches: list[Bench], simulators=SIMULATORS, progress
     say = progress or (lambda msg: None)
     result = SuiteResult(model=ir.name, simulators=tuple(simulators))
     result.not_applicable = [(b.name, b.title, b.not_applicable) for b in benches if b.not_applicable]
+    result.findings = [(b.name, b.finding) for b in benches if b.finding and not b.not_applicable]
     for name, _, reason in result.not_applicable:
         say(f"{name}: not applicable -- {reason}")
+    for name, finding in result.findings:
+        say(f"{name}: finding -- {finding}")
     benches = [b for b in benches if not b.not_applicable]
     traces: dict[str, dict[str, Trace]] = {b.name: {} for b in benches}
     errors: dict[str, dict[str, str]] = {b.name: {} for b in benches}

@@ -20,7 +20,7 @@ from compactgen.sim import (
     ngspice_command, ngspice_library, read_raw, require_simulators, run_ngspice,
     run_ngspice_batch, run_ngspice_many, run_vacask, split_sweeps,
 )
-from compactgen.sim.ngspice import _spice_number
+from compactgen.sim.ngspice import SPICEINIT, _spice_number
 
 V0, R0, K = 0.5, 1e3, 0.5
 # Largest state error |s - s_ref| allowed with the tight settings used below; measured about
@@ -297,6 +297,7 @@ def test_ngspice_without_operating_point_reports_the_failure(ngspice: None, ngsp
         run_ngspice_batch(deck)
     # The raw file ngspice leaves behind holds a header and no data.
     (tmp_path / "deck.cir").write_text(deck)
+    (tmp_path / ".spiceinit").write_text(SPICEINIT)  # one OpenMP thread, as every run of the project
     subprocess.run([ngspice_command(), "-b", "-r", "left.raw", "deck.cir"], cwd=tmp_path,
                    capture_output=True, timeout=60)
     with pytest.raises(SimulationError, match=r"left\.raw.*no data"):
@@ -341,6 +342,7 @@ def test_raw_reader_gives_the_same_numbers_for_binary_and_ascii(ngspice_cli: Non
                 f"op\nwrite {filetype}.raw\nac dec 5 1e6 1e10\nwrite {filetype}.raw\n"
                 f"tran 10p 20n 0 5p\nwrite {filetype}.raw\nquit\n.endc\n.end\n")
         (tmp_path / f"{filetype}.cir").write_text(deck)
+        (tmp_path / ".spiceinit").write_text(SPICEINIT)
         subprocess.run([ngspice_command(), "-b", f"{filetype}.cir"], cwd=tmp_path,
                        capture_output=True, timeout=120, check=True)
         plots[filetype] = read_raw(tmp_path / f"{filetype}.raw")

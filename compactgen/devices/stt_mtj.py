@@ -51,7 +51,9 @@ class SttMtj(DeviceKind):
             ParamSpec("xi_fl", "1", 0.0, -2.0, 2.0, "field-like to damping-like torque ratio",
                       source="|xi| <~ 0.3 typical for MgO MTJs (from memory)", group="spin-transfer torque"),
         ]
-        return (free_layer_specs() + mtj_read_specs() + stt + limit_specs() + orientation_specs()
+        # the starter's limit covers its own benches: 3 x I_c0 at -40 degC, after the junction has
+        # switched to the parallel state (voltage drive: the current rises with the conductance)
+        return (free_layer_specs() + mtj_read_specs() + stt + limit_specs(j_max=6e11) + orientation_specs()
                 + variation_specs(VARIED))
 
     def derive_defaults(self, values, options, given=frozenset()):
@@ -120,8 +122,14 @@ class SttMtj(DeviceKind):
                 "Reference layer along +z: m_z = +1 is the parallel (low-resistance) state.",
                 "Positive conventional current from t to b (electrons from the reference into the free layer) "
                 "drives the free layer toward the parallel state; negative current toward antiparallel.",
-                "Instance parameter state0 = +1 starts the free layer parallel, -1 antiparallel; tilt0 sets the "
-                "initial cone angle (0 = thermal most-probable angle at tnom).",
+                "Instance parameter state0 = +1 starts the free layer parallel, -1 antiparallel.",
+                "thermal_rest = 1 (default): the free layer rests at its thermal angle exp(-gamma_E/2)/sqrt(Delta(T)) "
+                "from the axis (m_z = +-cos of it, e.g. -0.996 at rest in AP, not -1), held there at any time by a "
+                "thermal cone drift, so a write does not depend on when it comes; with no in-plane field the layer is "
+                "integrated in the frame co-rotating with its precession: m_z, R and the currents are those of the "
+                "laboratory frame, mx and my are the transverse components in the rotating frame (constant at rest).",
+                "thermal_rest = 0: plain LLG in the laboratory frame from tilt0 (rad from the axis; 0 = exactly on the "
+                "axis, where a spin torque never starts a write: the deterministic worst case) and phi0.",
                 "Internal nodes mx, my, mz carry the free-layer unit vector as voltages (1 V = 1).",
             ],
             constraints=parts.constraints,
@@ -157,6 +165,16 @@ RISE = 50e-12
 DELAY = 0.1e-9
 #: longest transient a bench may need, in step caps (keeps one card's verify within a minute)
 POINT_BUDGET = 60_000
+
+
+#: steps per switching time where the free layer is integrated in its co-rotating frame
+STEPS_PER_SWITCH = 400
+
+
+def corotating(values: dict[str, float]) -> bool:
+    """True where the default rest state integrates the free layer in its co-rotating frame (no
+    in-plane field: devices/common.macrospin_states)."""
+    return values.get("hx", 0.0) == 0.0 and values.get("hy", 0.0) == 0.0 and values.get("thermal_rest", 1.0) >= 0.5
 
 
 def step_cap(f_fmr: float) -> float:
@@ -210,12 +228,23 @@ class WritePlan:
         v_lim = values["v_max"]
         self.v = bias_for_current(model, self.current, v_lim)
         if self.v is None:
+            r_lim = abs(v_lim / model.terminal_currents({"t": v_lim, "b": 0.0}, model.initial)["t"])
             self.reason = (f"{k:g} x I_c0 = {abs(self.current) * 1e6:.4g} uA needs more than the calibrated bias "
-                           f"limit v_max = {v_lim:g} V across the junction (R = {abs(v_lim / model.terminal_currents({'t': v_lim, 'b': 0.0}, model.initial)['t']):.4g} ohm)")
+                           f"limit v_max = {v_lim:g} V across the junction (R = {r_lim:.4g} ohm there)")
             return
-        cap = step_cap(figs["f_fmr"])
+        # under voltage drive the current changes as the junction switches: the written state's
+        # current must stay inside the calibrated range too
+        written = ReferenceModel(ir, {"state0": -self.start}, **kw)
+        j_end = abs(written.terminal_currents({"t": self.v, "b": 0.0}, written.initial)["t"]) / area
+        if j_end > values["j_max"]:
+            self.reason = (f"{k:g} x I_c0 at {self.v:+.4g} V reaches {j_end / 1e10:.4g} MA/cm^2 once written "
+                           f"(voltage drive), beyond the calibrated limit j_max = {values['j_max'] / 1e10:.4g} MA/cm^2")
+            return
         theta = float(np.arccos(min(1.0, abs(rest_mz(ir, self.start, temperature)))))
         t_est = figs["tau_prec"] * float(switching.switching_integral(k, max(theta, 1e-6)).evalf())
+        cap = step_cap(figs["f_fmr"])
+        if corotating(values):  # no precession to resolve: the step follows the polar motion
+            cap = max(cap, t_est / STEPS_PER_SWITCH)
         settle = float(np.clip(3.0 * figs["tau_prec"], 1e-9, 20e-9))
         probe_len = 4.0 * t_est + 1e-9
         if (delay + probe_len + settle) / cap > POINT_BUDGET:
@@ -311,6 +340,8 @@ def stt_benches(ir, values: dict[str, float]) -> list[Bench]:
     hold = float(np.clip(5.0 * figs["tau_prec"], 10e-9, 50e-9))
     mz_rest = rest_mz(ir, -1.0)
     cap = step_cap(figs["f_fmr"])
+    if corotating(values):
+        cap = max(cap, hold / STEPS_PER_SWITCH)
     title = f"sub-threshold pulse 0.5 x I_c0 ({0.5 * i_c0 * 1e6:.4g} uA) for {hold * 1e9:.3g} ns from AP: no switching"
     if v is None:
         benches.append(Bench("hold_0.5ic0", title, "tran", {}, [], not_applicable=(

@@ -141,6 +141,9 @@ def _serve(conn: Connection, library: str) -> None:
 
     NgSpiceShared.LIBRARY_PATH = library
     ng = StreamingNgSpice.new_instance()
+    # one OpenMP thread per worker: Debian's start-up script asks for more, and parallel workers
+    # on a small machine then run many times slower (OMP_NUM_THREADS does not override it)
+    ng.exec_command(f"set num_threads={THREADS}")
     loaded = False
     while True:
         try:
@@ -164,6 +167,11 @@ def _serve(conn: Connection, library: str) -> None:
         vectors = {} if plot == "const" else ng.plot(None, plot)
         conn.send(("ok", {name: np.array(vector._data) for name, vector in vectors.items()}))
 
+
+#: OpenMP threads of every ngspice the project runs (set in the worker and in .spiceinit for
+#: batch runs); parallel runs use one each
+THREADS = 1
+SPICEINIT = f"* written by compactgen: one OpenMP thread per ngspice run\nset num_threads={THREADS}\n"
 
 _pool: list[NgspiceWorker] = []
 _pool_lock = threading.Lock()
@@ -265,6 +273,7 @@ def run_ngspice_batch(deck: str, timeout: float = 300.0) -> dict[str, np.ndarray
     with tempfile.TemporaryDirectory(prefix="compactgen-ngspice-") as tmp:
         work = Path(tmp)
         (work / "deck.cir").write_text(deck)
+        (work / ".spiceinit").write_text(SPICEINIT)
         returncode, log = run_tool([command, "-b", "-r", "out.raw", "deck.cir"], cwd=work,
                                    timeout=timeout, what=f"ngspice deck {_title(deck)!r}")
         tail = log.split("Total elapsed time")[0].splitlines()  # drop the resource-usage trailer
