@@ -113,6 +113,39 @@ def test_hoisting_keeps_the_equations(files):
         np.testing.assert_allclose(a.rhs({"t": v, "b": 0.0}, y), b.rhs({"t": v, "b": 0.0}, y), rtol=1e-12)
 
 
+
+
+def _closing(text: str, i: int) -> int:
+    """Index of the parenthesis that closes the one at ``i``."""
+    depth = 0
+    for j in range(i, len(text)):
+        depth += {"(": 1, ")": -1}.get(text[j], 0)
+        if depth == 0:
+            return j
+    raise ValueError(f"unbalanced: {text}")
+
+
+def _python_ternaries(expr: str) -> str:
+    """ngspice's ``(((c)) ? (a) : (b))`` -> Python's ``(a if c else b)``, nested ones included."""
+    start = expr.find("(((")
+    while start >= 0:
+        cond_end = _closing(expr, start + 1)
+        rest = expr[cond_end + 1:]
+        if not rest.startswith(" ? ("):
+            start = expr.find("(((", start + 1)
+            continue
+        a0 = cond_end + 4
+        a1 = _closing(expr, a0)
+        b0 = a1 + 4  # ") : ("
+        b1 = _closing(expr, b0)
+        cond = expr[start + 2:cond_end]
+        new = (f"({_python_ternaries(expr[a0 + 1:a1])} if {_python_ternaries(cond)} "
+               f"else {_python_ternaries(expr[b0 + 1:b1])})")
+        expr = expr[:start] + new + expr[b1 + 2:]
+        start = expr.find("(((")
+    return expr.replace("&&", " and ").replace("||", " or ")
+
+
 @pytest.mark.parametrize("name", ["pmtj35_demo", "sot50_demo", "dwtrack_demo"])
 def test_ngspice_runtime_numbers_are_of_ordinary_size(name):
     # measured: ngspice B-source arithmetic loses a wall velocity by a factor 6e4 when a ratio of
@@ -136,7 +169,7 @@ def test_ngspice_runtime_numbers_are_of_ordinary_size(name):
 
     for m in re.finditer(r"^\.param (\w+)=\{(.*)\}$", sub, re.M):
         expr = m.group(2)
-        expr = re.sub(r"\(\(\((.*?)\)\) \? \((.*?)\) : \((.*?)\)\)", r"(\2 if \1 else \3)", expr)
+        expr = _python_ternaries(expr)
         expr = re.sub(r"\bln\(", "math.log(", expr)
         expr = re.sub(r"\b(sqrt|pow|acos|tanh|sin|cos|exp)\(", r"math.\1(", expr)
         env[m.group(1)] = eval(expr, {"math": math, "max": max, "min": min, "abs": abs}, env)

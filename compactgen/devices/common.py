@@ -230,7 +230,7 @@ def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p, extra_torques=(), ax
     hy_ = parts.loc(FIELD_LOCALS[1], heff[1])
     hz_ = parts.loc(FIELD_LOCALS[2], heff[2])
     rest = fl["rest_on"]
-    no_inplane = sp.Piecewise((1, sp.Eq(P["hx"], 0) & sp.Eq(P["hy"], 0)), (0, True))
+    no_inplane = sp.Piecewise((1, sp.Eq(P["hx"] ** 2 + P["hy"] ** 2, 0)), (0, True))
     sym = parts.d("axisym", rest * no_inplane) if axial else sp.Integer(0)
     az = parts.d("c_azimuthal", 1 - sym) if axial else 1
     rhs = macrospin.llg_explicit(m, (hx_, hy_, hz_), P["alpha"], h_dl, h_fl, p, azimuthal=az)

@@ -46,7 +46,9 @@ class SotMtj(DeviceKind):
     options = SttMtj.options
 
     def param_specs(self) -> list[ParamSpec]:
-        fl = [dataclasses.replace(s, default=20.0 * MT,
+        # starter: hx/H_k,eff = 0.055 with its free layer, enough for the end state to follow
+        # -sign(J theta_sh hx) at 1.5-3 x J_c and -40..125 degC (20 mT rang back at 3 x J_c)
+        fl = [dataclasses.replace(s, default=50.0 * MT,
                                   desc="in-plane bias field along the write current (x); needed for deterministic "
                                        "switching of a perpendicular free layer")
               if s.name == "hx" else s for s in free_layer_specs()]
