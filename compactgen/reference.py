@@ -115,7 +115,7 @@ class ReferenceModel:
         args = self.vsyms + self.ssyms
         self._rhs = sp.lambdify(args, [prep(s.rhs) for s in ir.states], modules="numpy", cse=True)
         self._branch = sp.lambdify(args, [prep(b.current) for b in ir.branches], modules="numpy", cse=True)
-        self._outputs = {o.name: sp.lambdify(args, prep(o.expr), modules="numpy") for o in ir.outputs}
+        self._outputs = {o.name: sp.lambdify(args, prep(o.expr), modules="numpy") for o in ir.monitored_outputs()}
         self._limits = {name: sp.lambdify(args, prep(sym), modules="numpy") for name, sym in ir.limits.items()}
         self.initial = np.array([_evaluate(prep(s.initial), {}, s.name) for s in ir.states])
         self.terminals = [t.name for t in ir.terminals]
@@ -233,6 +233,8 @@ class ReferenceModel:
         return out
 
     def output(self, name, node_v, y):
+        """An output of the IR (``ir.outputs`` or the range output ``stress``) at terminal
+        voltages ``node_v`` and states ``y`` (arrays broadcast, as in ``dc``)."""
         return self._outputs[name](*self._probes(node_v, y), *y)
 
     def check_range(self, node_v, y, where: str = "") -> list[str]:
