@@ -59,7 +59,8 @@ def _extensions():
     """Subcommands that live with their feature (fit, release, ...): each module may define
     ``add_commands(subparsers)``."""
     out = []
-    for mod in ("compactgen.calibrate.commands", "compactgen.release", "compactgen.thermal_commands"):
+    for mod in ("compactgen.calibrate.commands", "compactgen.release", "compactgen.thermal_commands",
+                "compactgen.range_report"):
         try:
             m = __import__(mod, fromlist=["add_commands"])
         except ModuleNotFoundError as exc:

@@ -301,6 +301,7 @@ def ngspice_context(ir: ModelIR) -> dict:
         branches=[dict(pos=b.pos, neg=b.neg, desc=b.desc, code=spice_wrap(code(b.current))) for b in ir.branches],
         monitors=monitors,
         draws=draws,
+        limits=range_limits(ir),
         instance_line=usage_instance(ir),
     )
     ctx["derived"] = [dict(name=d["once"], code=d["name"]) for d in draws] + [
@@ -325,6 +326,13 @@ def ngspice(ir: ModelIR, monitors: bool = True) -> str:
 def ngspice_nodes(ir: ModelIR) -> list[dict]:
     """Every node inside the ngspice subcircuit: name, what it carries, and its scale."""
     return ngspice_context(ir)["node_table"]
+
+
+def range_limits(ir: ModelIR) -> list[dict]:
+    """The calibrated-range limits the range output compares with: limit parameter, the drive it
+    bounds (a local of the model), the card value and the parameter's meaning."""
+    return [dict(name=name, drive=str(sym), value=ir.params[name].card_text(), desc=ir.params[name].desc)
+            for name, sym in ir.limits.items()]
 
 
 def usage_instance(ir: ModelIR, inst: str = "X1", sep: str = " ") -> str:
