@@ -88,6 +88,8 @@ class Figure:
     unit: str
     desc: str
     source: str = ""
+    #: conditions the value holds at beyond the card values and tnom (datasheet), e.g. a fixed bias
+    condition: str = ""
 
 
 @dataclass

@@ -320,6 +320,11 @@ def ngspice(ir: ModelIR, monitors: bool = True) -> str:
     ctx = ngspice_context(ir)
     if not monitors:
         ctx.update(monitors=[], draws=[])
+    return ngspice_text(ctx)
+
+
+def ngspice_text(ctx: dict) -> str:
+    """The library text of a context from ngspice_context."""
     return environment().get_template("ngspice/model.lib.j2").render(**ctx)
 
 
