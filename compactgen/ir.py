@@ -32,6 +32,9 @@ from .params import ParamSpec, ParamTable
 
 #: simulation time inside a model ($abstime in Verilog-A, time in ngspice); 0 in the operating point
 SIM_TIME = sp.Symbol("sim_time", nonnegative=True)
+#: name of the calibrated-range output every model with limits has (Verilog-A variable, ngspice node)
+RANGE_OUTPUT = "stress"
+RANGE_OUTPUT_DESC = "largest ratio of drive to its calibrated limit (above 1: outside the calibrated range)"
 
 
 @dataclass(frozen=True)
@@ -85,6 +88,8 @@ class Figure:
     unit: str
     desc: str
     source: str = ""
+    #: conditions the value holds at beyond the card values and tnom (datasheet), e.g. a fixed bias
+    condition: str = ""
 
 
 @dataclass
@@ -134,6 +139,19 @@ class ModelIR:
             if self.temperature in expr.free_symbols or expr.free_symbols & dep:
                 dep.add(sym)
         return dep
+
+    def range_output(self) -> Output | None:
+        """The calibrated-range output: max over the limits of |drive| / limit.  Non-negative by
+        construction (a maximum of magnitudes); None for a model without limits."""
+        if not self.limits:
+            return None
+        terms = [sp.Abs(sym) / self.params[name].symbol for name, sym in self.limits.items()]
+        return Output(RANGE_OUTPUT, sp.Max(*terms) if len(terms) > 1 else terms[0], "1", RANGE_OUTPUT_DESC)
+
+    def monitored_outputs(self) -> list[Output]:
+        """Every quantity a simulator reports per instance: ``outputs`` and the range output."""
+        r = self.range_output()
+        return list(self.outputs) + ([r] if r is not None else [])
 
     def residual(self, state: State) -> sp.Expr:
         """Current leaving the state node besides ddt(tsc*x): the one form both back ends print."""
@@ -185,7 +203,8 @@ class ModelIR:
         term = {t.name for t in self.terminals}
         inner = [n.name for n in self.nodes]
         names = [*term, *inner, *(s.name for s in self.states)]
-        clash = {n for n in names if names.count(n) > 1} | ({"clk", "stress", "0"} & set(names))
+        names += [o.name for o in self.monitored_outputs()]  # ngspice carries each output on a node
+        clash = {n for n in names if names.count(n) > 1} | ({"clk", "0"} & set(names))
         if clash:
             raise ValueError(f"node names used twice or reserved: {sorted(clash)}")
         known_nodes = term | set(inner)

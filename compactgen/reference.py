@@ -118,7 +118,7 @@ class ReferenceModel:
         args = self.vsyms + self.ssyms
         self._rhs = sp.lambdify(args, [prep(s.rhs) for s in ir.states], modules="numpy", cse=True)
         self._branch = sp.lambdify(args, [prep(b.current) for b in ir.branches], modules="numpy", cse=True)
-        self._outputs = {o.name: sp.lambdify(args, prep(o.expr), modules="numpy") for o in ir.outputs}
+        self._outputs = {o.name: sp.lambdify(args, prep(o.expr), modules="numpy") for o in ir.monitored_outputs()}
         self._limits = {name: sp.lambdify(args, prep(sym), modules="numpy") for name, sym in ir.limits.items()}
         self.initial = np.array([_evaluate(prep(s.initial), {}, s.name) for s in ir.states])
         self.terminals = [t.name for t in ir.terminals]
@@ -236,6 +236,8 @@ class ReferenceModel:
         return out
 
     def output(self, name, node_v, y):
+        """An output of the IR (``ir.outputs`` or the range output ``stress``) at terminal
+        voltages ``node_v`` and states ``y`` (arrays broadcast, as in ``dc``)."""
         return self._outputs[name](*self._probes(node_v, y), *y)
 
     def check_range(self, node_v, y, where: str = "") -> list[str]:
@@ -252,6 +254,67 @@ class ReferenceModel:
                 notes.append(msg)
         return notes
 
+    def solve_current_drive(self, node_v: dict, y, targets: dict[str, float]) -> dict:
+        """``node_v`` completed with the voltages of the terminals in ``targets`` at which the device
+        draws the target currents (A into the device), by Newton's method with a difference
+        Jacobian, warm-started from the last solution."""
+        names = list(targets)
+        guess = getattr(self, "_current_guess", None)
+        v = np.array(guess if guess is not None and len(guess) == len(names) else [node_v[n] for n in names], float)
+        want = np.array([targets[n] for n in names])
+
+        def currents_at(vals):
+            nv = dict(node_v)
+            nv.update(zip(names, vals))
+            cur = self.terminal_currents(nv, y)
+            return np.array([float(cur[n]) for n in names])
+
+        if len(names) == 1:  # one current-driven terminal (a two-terminal device): chord iterations
+            return self._solve_one_current(node_v, y, names[0], float(want[0]), float(v[0]))
+        for _ in range(60):
+            i0 = currents_at(v)
+            jac = np.empty((len(names), len(names)))
+            for j in range(len(names)):
+                h = 1e-7 * (1.0 + abs(v[j]))
+                dv = np.zeros_like(v)
+                dv[j] = h
+                jac[:, j] = (currents_at(v + dv) - i0) / h
+            step = np.linalg.solve(jac, i0 - want)
+            v = v - step
+            if np.max(np.abs(step)) <= 1e-13 * (1.0 + np.max(np.abs(v))):
+                break
+        else:
+            if np.all(np.isfinite(y)):
+                raise RuntimeError(f"reference solver: current drive of {names} did not converge")
+        self._current_guess = v if np.all(np.isfinite(v)) else None
+        out = dict(node_v)
+        out.update(zip(names, (float(x) for x in v)))
+        return out
+
+    def _solve_one_current(self, node_v: dict, y, name: str, want: float, v: float) -> dict:
+        """solve_current_drive for one terminal: the slope from one difference, then chord steps."""
+        nv = dict(node_v)
+
+        def current(x):
+            nv[name] = x
+            return float(self.terminal_currents(nv, y)[name])
+
+        i0 = current(v)
+        h = 1e-7 * (1.0 + abs(v))
+        slope = (current(v + h) - i0) / h
+        for _ in range(100):
+            step = (i0 - want) / slope
+            v -= step
+            if not abs(step) > 1e-13 * (1.0 + abs(v)):  # also stops on NaN (a rejected trial stage)
+                break
+            i0 = current(v)
+        else:
+            if np.all(np.isfinite(y)):
+                raise RuntimeError(f"reference solver: current drive of {name} did not converge")
+        self._current_guess = np.array([v]) if np.isfinite(v) else None
+        nv[name] = v
+        return nv
+
     # ---- runs ----------------------------------------------------------------------------
     def dc(self, node_v: dict[str, np.ndarray]) -> Trace:
         """DC operating points with the states held at their initial values (as in both
@@ -264,20 +327,34 @@ class ReferenceModel:
                      states={s.name: yy for s, yy in zip(self.ir.states, y)})
 
     def transient(self, drives: dict, t_end: float, t_eval: np.ndarray | None = None,
-                  rtol: float = 1e-10, atol: float = 1e-12, max_step: float | None = None) -> Trace:
+                  rtol: float = 1e-10, atol: float = 1e-12, max_step: float | None = None,
+                  currents: dict | None = None) -> Trace:
         """Integrate with every terminal driven by a voltage waveform (objects with
-        ``value(t)`` and ``breakpoints(t_end)``); unlisted terminals are at 0 V."""
-        bps = sorted({0.0, t_end, *[b for w in drives.values() for b in w.breakpoints(t_end)]})
+        ``value(t)`` and ``breakpoints(t_end)``); unlisted terminals are at 0 V.  ``currents`` maps
+        terminals to current waveforms instead (A into the device at that terminal, e.g. a
+        junction current taken from a circuit simulation): their voltages are solved at every
+        evaluation so that the device carries exactly that current."""
+        currents = dict(currents or {})
+        clash = set(currents) & set(drives)
+        if clash or not set(currents) <= set(self.terminals):
+            raise ValueError(f"current-driven terminals {sorted(currents)} must be terminals of the device "
+                             f"and not voltage-driven too")
+        if currents and len(currents) == len(self.terminals):
+            raise ValueError("at least one terminal must be voltage-driven (or at 0 V) to fix the potential")
+        bps = sorted({0.0, t_end, *[b for w in (*drives.values(), *currents.values()) for b in w.breakpoints(t_end)]})
         bps = [b for b in bps if 0.0 <= b <= t_end]
 
-        def node_v(t):
-            return {n: (drives[n].value(t) if n in drives else 0.0) for n in self.terminals}
+        def node_v(t, y=None):
+            nv = {n: (drives[n].value(t) if n in drives else 0.0) for n in self.terminals}
+            if currents:
+                nv = self.solve_current_drive(nv, y, {n: w.value(t) for n, w in currents.items()})
+            return nv
 
         def f(t, y):
             # a trial stage of a rejected step may leave the sphere far enough for the cubic
             # restoring term to overflow; the step is then rejected, so stay quiet about it
             with np.errstate(over="ignore", invalid="ignore"):
-                return self.rhs(node_v(t), y)
+                return self.rhs(node_v(t, y), y)
 
         ts, ys = [], []
         last_t = None
@@ -307,6 +384,9 @@ class ReferenceModel:
         yy = np.concatenate(ys, axis=1)
         nv = {n: (np.array([drives[n].value(x) for x in t]) if n in drives else np.zeros_like(t))
               for n in self.terminals}
+        if currents:
+            solved = [node_v(x, yy[:, i]) for i, x in enumerate(t)]
+            nv.update({n: np.array([p[n] for p in solved]) for n in currents})
         nv = self.solve_nodes(nv, list(yy))
         cur = self.terminal_currents(nv, list(yy))
         self.check_range(nv, list(yy))

@@ -15,6 +15,7 @@ from . import __version__
 from .ir import SIM_TIME, Hoister, ModelIR, collect_terms
 from .printing import NgspicePrinter, VerilogAPrinter
 from .printing.base import format_number
+from .printing.ngspice import Sampled
 
 TEMPLATE_DIR = Path(__file__).resolve().parent.parent / "templates"
 if not TEMPLATE_DIR.is_dir():  # installed as a wheel: templates shipped inside the package
@@ -31,6 +32,7 @@ def environment() -> jinja2.Environment:
         autoescape=False,
     )
     env.filters["spice_wrap"] = spice_wrap
+    env.filters["comment_wrap"] = comment_wrap
     return env
 
 
@@ -47,6 +49,21 @@ def spice_wrap(text: str, width: int = 100) -> str:
             line = f"{line} {tok}" if line else tok
     out.append(line)
     return "\n".join(out)
+
+
+def comment_wrap(text: str, width: int = 100) -> str:
+    """Break a long SPICE comment line ('* ...') at spaces into further comment lines."""
+    body = text[1:].strip() if text.startswith("*") else text
+    indent = len(text[1:]) - len(text[1:].lstrip()) if text.startswith("*") else 1
+    out, line = [], ""
+    for tok in body.split(" "):
+        if line and len(line) + 1 + len(tok) > width - indent - 3:
+            out.append(line)
+            line = tok
+        else:
+            line = f"{line} {tok}" if line else tok
+    out.append(line)
+    return "\n".join("*" + " " * indent + x for x in out)
 
 
 def param_digest(ir: ModelIR) -> str:
@@ -66,14 +83,38 @@ def _range(spec) -> str:
 
 
 def _stress_expr(ir: ModelIR) -> sp.Expr:
-    terms = [sp.Abs(sym) / ir.params[name].symbol for name, sym in ir.limits.items()]
-    return sp.Max(*terms) if len(terms) > 1 else terms[0]
+    return ir.range_output().expr
+
+
+#: unit in which an output's ngspice node reads (1 V = 1 unit), by the output's SI unit: values
+#: of ordinary size for a designer (a junction of 1e4 ohm reads 10 on its node) and well above
+#: ngspice's absolute voltage tolerance; an SI unit not listed reads in itself
+NODE_UNITS = {"ohm": "kohm", "A/m^2": "MA/cm^2", "m": "nm", "A": "uA", "s": "ns"}
+
+
+def node_unit(si_unit: str) -> tuple[str, float]:
+    """(unit of the node, SI value of 1 V on the node) for an output in ``si_unit``."""
+    from .units import convert
+
+    unit = NODE_UNITS.get(si_unit, si_unit)
+    return unit, (1.0 if unit == si_unit else convert(1.0, unit, si_unit))
+
+
+def draw_params(ir: ModelIR) -> list:
+    """The statistical draws among the parameters (devices/variation.py): global zg_*, local zl_*."""
+    from .devices.variation import is_draw
+
+    return [s for s in ir.params if is_draw(s.name)]
 
 
 def _reference_numbers(ir: ModelIR, temperature: float) -> dict:
     from .reference import ReferenceModel
 
     return {k: float(v) for k, v in ReferenceModel(ir, temperature=temperature).num.items()}
+
+
+def _evaluate_at(expr, numbers: dict) -> float:
+    return float(sp.sympify(sp.sympify(expr).xreplace(numbers)).evalf())
 
 
 def _common(ir: ModelIR) -> dict:
@@ -145,10 +186,8 @@ def _sections(ir: ModelIR) -> list[dict]:
     return out
 
 
-def ngspice(ir: ModelIR) -> str:
-    """ngspice subcircuit: parameter-only quantities as .param, everything that depends on
-    bias, state or temperature inlined into the B-source expressions, expanded and with their
-    parameter-only coefficients hoisted; shared quantities on auxiliary nodes."""
+def ngspice_context(ir: ModelIR) -> dict:
+    """The template context of the ngspice library (every expression printed)."""
     smap = {str(k): f"V({p},{n})" if n != "0" else f"V({p})" for k, (p, n) in ir.voltages.items()}
     smap.update({s.name: f"V({s.name})" for s in ir.states})
     smap[str(ir.temperature)] = "(temper + 273.15)"
@@ -156,6 +195,11 @@ def ngspice(ir: ModelIR) -> str:
     # simulation time from its own source clk instead: PWL(0 0 1 1) is 0 in every DC
     # analysis and equals the time during the first second of a transient.
     smap[str(SIM_TIME)] = "V(clk)"
+    # a subcircuit parameter whose default calls agauss() is drawn anew wherever it is referenced
+    # (measured, ngspice 39); each draw is therefore read once into a .param of its own (one draw
+    # per instance) and the model and the draw's node both use that
+    draws = [dict(name=s.name, desc=s.desc, once=f"{s.name}_val") for s in draw_params(ir)]
+    smap.update({d["name"]: d["once"] for d in draws})
     pr = NgspicePrinter(smap)
     hoist = Hoister(ir.parameter_level())
     tdep = ir.temperature_dependent()
@@ -204,10 +248,12 @@ def ngspice(ir: ModelIR) -> str:
     for sym, e in ir.derived:
         if sym in used:
             scale = abs(ref_num.get(sym, 1.0)) or 1.0
-            tnodes.append(dict(name=f"tq_{sym}", code=spice_wrap(pr.code(compact(inline[sym] / scale)))))
+            tnodes.append(dict(name=f"tq_{sym}", code=spice_wrap(pr.code(compact(inline[sym] / scale))),
+                               desc=f"{sym} at the device temperature (circuit temperature + dtemp)",
+                               scale_text=f"1 V = {scale:.6g} (|{sym}| at tnom and the card values)"))
             pr.symbol_map[f"tqn_{sym}"] = f"V(tq_{sym})"
             inline[sym] = sp.Float(scale) * sp.Symbol(f"tqn_{sym}", real=True)
-    aux, extra_derived = [], []
+    aux, extra_derived, aux_num = [], [], {}
     for sym, e in ir.locals:
         if sym in ir.shared:
             # computed once per instance on node <name>: R to ground of 1 ohm, fed by a current
@@ -216,7 +262,11 @@ def ngspice(ir: ModelIR) -> str:
             inv = sp.Symbol(f"kis_{sym}", positive=True)
             extra_derived += [(scale, ir.shared[sym]), (inv, 1 / scale)]
             hoist.base |= {scale, inv}
-            aux.append(dict(name=str(sym), code=spice_wrap(pr.code(compact((inv * e).xreplace(inline))))))
+            aux_num = aux_num or _reference_numbers(ir, t_ref)
+            aux.append(dict(name=str(sym), code=spice_wrap(pr.code(compact((inv * e).xreplace(inline)))),
+                            desc=f"bias- and state-dependent quantity {sym}, computed once for the sources that share it",
+                            scale_text=f"1 V = {ir.shared[sym]} "
+                                       f"({_evaluate_at(ir.shared[sym], aux_num):.6g} at the card values, tt)"))
             node = sp.Symbol(f"aux_{sym}", real=True)
             pr.symbol_map[node.name] = f"V({sym})"
             inline[sym] = scale * node
@@ -231,6 +281,18 @@ def ngspice(ir: ModelIR) -> str:
         return pr.code(hold).replace("_flow", code(-ir.time_scale * st.rhs)).replace(
             "_hold", code(st.symbol - st.initial))
 
+    # outputs (and the range output) on nodes of their own, V = value in the node's unit, sampled
+    # (printing/ngspice.Sampled): a monitor adds no Jacobian entries and never shows a
+    # linearisation round-off below zero
+    monitors = []
+    for o in ir.monitored_outputs():
+        unit, scale = node_unit(o.unit)
+        expr = sp.sympify(o.expr).xreplace(inline)
+        expr = compact(expr if scale == 1.0 else expr / sp.Float(scale))
+        monitors.append(dict(name=o.name, desc=o.desc, unit=unit, si_unit=o.unit, scale=scale,
+                             unit_text="1 V = 1" if unit in ("1", "") else f"1 V = 1 {unit}",
+                             code=spice_wrap(pr.code(Sampled(expr)))))
+
     ctx = _common(ir)
     ctx.update(
         params=[dict(name=s.name, default=_section_default(ir, s)) for s in ir.params],
@@ -242,8 +304,75 @@ def ngspice(ir: ModelIR) -> str:
                 for s in ir.states],
         time_scale=str(ir.time_scale),
         branches=[dict(pos=b.pos, neg=b.neg, desc=b.desc, code=spice_wrap(code(b.current))) for b in ir.branches],
-        stress=spice_wrap(code(_stress_expr(ir))),
+        monitors=monitors,
+        draws=draws,
+        limits=range_limits(ir),
+        instance_line=usage_instance(ir),
     )
-    ctx["derived"] = [dict(name=str(k), code=pr.code(e))
-                      for k, e in list(ir.derived) + extra_derived + hoist.definitions if k not in tdep]
+    ctx["derived"] = [dict(name=d["once"], code=d["name"]) for d in draws] + [
+        dict(name=str(k), code=pr.code(e)) for k, e in list(ir.derived) + extra_derived + hoist.definitions
+        if k not in tdep]
+    ctx["node_table"] = _node_table(ir, aux, tnodes, monitors)
+    return ctx
+
+
+def ngspice(ir: ModelIR, monitors: bool = True) -> str:
+    """ngspice subcircuit: parameter-only quantities as .param, everything that depends on
+    bias, state or temperature inlined into the B-source expressions, expanded and with their
+    parameter-only coefficients hoisted; shared quantities on auxiliary nodes; every output and
+    statistical draw on a node of its own (``monitors=False`` leaves those nodes out: only for
+    measuring what they cost, benchmarks/bench_output_nodes.py)."""
+    ctx = ngspice_context(ir)
+    if not monitors:
+        ctx.update(monitors=[], draws=[])
+    return ngspice_text(ctx)
+
+
+def ngspice_text(ctx: dict) -> str:
+    """The library text of a context from ngspice_context."""
     return environment().get_template("ngspice/model.lib.j2").render(**ctx)
+
+
+def ngspice_nodes(ir: ModelIR) -> list[dict]:
+    """Every node inside the ngspice subcircuit: name, what it carries, and its scale."""
+    return ngspice_context(ir)["node_table"]
+
+
+def range_limits(ir: ModelIR) -> list[dict]:
+    """The calibrated-range limits the range output compares with: limit parameter, the drive it
+    bounds (a local of the model), the card value and the parameter's meaning."""
+    return [dict(name=name, drive=str(sym), value=ir.params[name].card_text(), desc=ir.params[name].desc)
+            for name, sym in ir.limits.items()]
+
+
+def usage_instance(ir: ModelIR, inst: str = "X1", sep: str = " ") -> str:
+    """An instance line safe to copy into any library section: the ports, the model and every
+    instance parameter at its default, except the statistical draws (an override of a draw on
+    the instance line would switch mismatch off in a Monte Carlo run)."""
+    from .devices.variation import is_draw
+
+    parts = [inst, *[t.name for t in ir.terminals], ir.name]
+    parts += [f"{s.name}={format_number(s.default)}" for s in ir.params
+              if s.kind == "instance" and not is_draw(s.name)]
+    return sep.join(parts)
+
+
+def _node_table(ir: ModelIR, aux: list[dict], tnodes: list[dict], monitors: list[dict]) -> list[dict]:
+    """Rows (name, kind, carries, scale) for every node of the subcircuit, in the order a reader
+    meets them; the datasheet lists them all (ngspice cannot hide subcircuit nodes)."""
+    rows = [dict(name=t.name, kind="port", carries=t.desc, scale="V") for t in ir.terminals]
+    rows += [dict(name=n.name, kind="internal electrical node", carries=n.desc, scale="V") for n in ir.nodes]
+    rows += [dict(name=s.name, kind="state", carries=s.desc, scale=f"1 V = 1 ({s.unit})" if s.unit != "1" else "1 V = 1")
+             for s in ir.states]
+    rows += [dict(name=m["name"], kind="output (sampled)", carries=m["desc"], scale=m["unit_text"])
+             for m in monitors]
+    rows.append(dict(name="clk", kind="model clock", carries="0 in every DC analysis, the simulation time in a transient",
+                     scale="1 V = 1 s"))
+    rows += [dict(name=q["name"], kind="temperature-dependent quantity", carries=q["desc"], scale=q["scale_text"])
+             for q in tnodes]
+    rows += [dict(name=a["name"], kind="shared quantity", carries=a["desc"], scale=a["scale_text"]) for a in aux]
+    names = [r["name"] for r in rows]
+    clash = sorted({n for n in names if names.count(n) > 1})
+    if clash:
+        raise ValueError(f"{ir.name}: ngspice node names used twice: {clash}")
+    return rows

@@ -55,11 +55,11 @@ def source_corners(deck: str, t_end: float) -> list[float]:
     return sorted(x for x in out if 0.0 <= x <= t_end)
 
 
-def run_deck(name: str, card: str, tmp_path: Path):
+def run_deck(name: str, card: str, tmp_path: Path, **template):
     c = load_card(ROOT / "examples" / card)
     write_files(build_files(c), tmp_path)
     text = (ROOT / "ngspice_decks" / name).read_text()
-    deck = jinja2.Template(text, undefined=jinja2.StrictUndefined).render(lib_dir=str(tmp_path))
+    deck = jinja2.Template(text, undefined=jinja2.StrictUndefined).render(lib_dir=str(tmp_path), **template)
     data = run_ngspice(deck, timeout=300.0)
     return c, deck, data
 
@@ -133,3 +133,147 @@ def test_domain_wall_weight_levels(tmp_path, ngspice):
     r_p = c.values["ra"] / (c.values["mtj_length"] * c.values["track_width"])
     assert r_p < min(levels) and max(levels) < r_p * (1 + c.values["tmr0"])
     assert min(b / a for a, b in zip(levels[:-1], levels[1:])) < 0.9  # distinct levels, not a drift
+
+
+# ---- the 2x2 one-transistor-one-junction array (ngspice_decks/stt_2x2_array.cir.j2) ---------------
+#: cell -> (bit line, drain node under the junction, initial state); written cells -> direction
+ARRAY_CELLS = {"x00": ("bl0", "d00", -1.0), "x01": ("bl1", "d01", 1.0), "x10": ("bl0", "d10", -1.0),
+               "x11": ("bl1", "d11", 1.0)}
+ARRAY_WRITES = {"x00": +1, "x01": -1}  # X00 AP->P, X01 P->AP (source-degenerated transistor)
+ARRAY_WRITE_START = 1.2e-9  # bit and source lines start their write ramps
+ARRAY_READS = (0.95e-9, 12.45e-9)  # end of the reads before and after the write
+ARRAY_SECTIONS = ("tt", "ss", "ff", "mc")
+ARRAY_SEED = 7
+WHY_T_ARRAY = ("write time: step cap 1/50 of the precession period with reltol 1e-4 gives switching times "
+               "within 0.4 % (benchmarks/bench_step_cap.py); the reference sees the junction current read from "
+               "ngspice's sampled res node, interpolated linearly between its time points: 1 %")
+WHY_HOLD = ("hold: m_z stays within 0.01 of its starting pole (the thermal initial cone, 1 - cos(0.084) = 0.0035, "
+            "may relax; a disturb that started a switch would leave the cone)")
+
+
+def _array_instance(c, data, cell: str, section: str) -> dict:
+    """Instance values of a cell as the run used them: its state, the section's corner and the
+    Monte Carlo draws read back from the library's draw sources (0 outside the mc section)."""
+    from compactgen.devices.variation import CORNERS
+
+    inst = {"state0": ARRAY_CELLS[cell][2], "corner": CORNERS.get(section, 0.0)}
+    for s in c.ir().params:
+        if s.name.startswith("zg_"):
+            inst[s.name] = float(data[f"@i.x00.i{s.name}[dc]"][0])  # global: one value per run
+        elif s.name.startswith("zl_"):
+            inst[s.name] = float(data[f"@i.{cell}.i{s.name}[dc]"][0])
+    return inst
+
+
+@pytest.fixture(scope="module")
+def array_runs(tmp_path_factory):
+    """The array deck in every section, with the reference driven by each written junction's current."""
+    from conftest import needs
+
+    needs("ngspice")  # skips, or fails when COMPACTGEN_REQUIRE_SIMULATORS=1
+    out = {}
+    for section in ARRAY_SECTIONS:
+        tmp = tmp_path_factory.mktemp(f"array_{section}")
+        c, deck, data = run_deck("stt_2x2_array.cir.j2", "pmtj35_demo.toml", tmp, section=section, seed=ARRAY_SEED)
+        t = data["time"]
+        corners = source_corners(deck, t[-1])
+        run = dict(c=c, data=data, t=t, cells={})
+        for cell, (bl, d, _) in ARRAY_CELLS.items():
+            v_tb = data[bl] - data[d]
+            i_tb = v_tb / (data[f"{cell}.res"] * 1e3)  # the junction current, from the res output node
+            inst = _array_instance(c, data, cell, section)
+            cell_run = dict(inst=inst, v_tb=v_tb, i_tb=i_tb)
+            if cell in ARRAY_WRITES:
+                model = ReferenceModel(c.ir(), inst)
+                cell_run["ref"] = model.transient({}, t[-1], t_eval=t, rtol=1e-9, atol=1e-12,
+                                                  currents={"t": Sampled(t, i_tb, corners)})
+            run["cells"][cell] = cell_run
+        out[section] = run
+    return out
+
+
+def _write_time(t, mz, direction):
+    return crossing_time(t, mz, 0.0, ARRAY_WRITE_START, direction) - ARRAY_WRITE_START
+
+
+def _margins(run):
+    """Read margin of each written cell, I_P / I_AP - 1 of its bit-line current before and after."""
+    d, t = run["data"], run["t"]
+    i0 = [np.interp(x, t, -d["vbl0#branch"]) for x in ARRAY_READS]
+    i1 = [np.interp(x, t, -d["vbl1#branch"]) for x in ARRAY_READS]
+    return {"x00": i0[1] / i0[0] - 1, "x01": i1[0] / i1[1] - 1}
+
+
+@pytest.mark.simulator
+def test_array_write_times_match_the_reference_driven_by_the_junction_current(array_runs, ngspice):
+    rows = []
+    for section, run in array_runs.items():
+        figs = figures(run["c"].ir(), {k: v for k, v in run["cells"]["x00"]["inst"].items() if k != "state0"})
+        for cell, direction in ARRAY_WRITES.items():
+            cr = run["cells"][cell]
+            t_sim = _write_time(run["t"], run["data"][f"{cell}.mz"], direction)
+            t_ref = _write_time(cr["ref"].t, cr["ref"].states["mz"], direction)
+            i_w = np.interp(ARRAY_WRITE_START + 0.5e-9, run["t"], cr["i_tb"])
+            rows.append(f"{section:3s} {cell} {'AP->P' if direction > 0 else 'P->AP'}  I = {i_w * 1e6:+7.1f} uA "
+                        f"({i_w / figs['i_c0']:+.2f} I_c0)  write time ngspice {t_sim * 1e9:.3f} ns, "
+                        f"reference {t_ref * 1e9:.3f} ns")
+            assert np.isfinite(t_sim) and t_sim == pytest.approx(t_ref, rel=1e-2), (section, cell, WHY_T_ARRAY)
+            assert direction * run["data"][f"{cell}.mz"][-1] > 0.99 and direction * cr["ref"].states["mz"][-1] > 0.99
+    print("\n2x2 array, write times (from the start of the write ramps at 1.2 ns):\n" + "\n".join(rows))
+
+
+@pytest.mark.simulator
+def test_array_half_selected_cells_hold_their_state(array_runs, ngspice):
+    rows = []
+    for section, run in array_runs.items():
+        ic0 = figures(run["c"].ir())["i_c0"]
+        for cell in ("x10", "x11"):  # share the written cells' bit and source lines; word line off
+            mz = run["data"][f"{cell}.mz"]
+            start = ARRAY_CELLS[cell][2]
+            assert np.max(np.abs(mz - start)) < 0.01, (section, cell, WHY_HOLD)
+            i_tb, t = run["cells"][cell]["i_tb"], run["t"]
+            # a line edge charges the drain node under the junction through it (a pulse of up to
+            # ~I_c0 for tens of ps); on the write plateau only the off transistor's leakage flows
+            plateau = (t > ARRAY_WRITE_START + 1e-9) & (t < ARRAY_WRITE_START + 9.5e-9)
+            i_leak = np.max(np.abs(i_tb[plateau]))
+            assert i_leak < 0.01 * ic0, (section, cell)
+            rows.append(f"{section:3s} {cell}: largest |I| {np.max(np.abs(i_tb)) / ic0:.2f} I_c0 (edge), on the write "
+                        f"plateau {i_leak * 1e9:.3g} nA; largest |m_z - m_z(0)| {np.max(np.abs(mz - mz[0])):.2e}")
+    print("\n2x2 array, half-selected cells:\n" + "\n".join(rows))
+
+
+@pytest.mark.simulator
+def test_array_read_margins_at_the_corners(array_runs, ngspice):
+    rows, margins = [], {}
+    for section, run in array_runs.items():
+        t = run["t"]
+        for cell in ARRAY_WRITES:
+            cr = run["cells"][cell]
+            for x in ARRAY_READS:  # the junction resistance read at each read equals the reference's
+                r_sim = np.interp(x, t, run["data"][f"{cell}.res"]) * 1e3
+                r_ref = np.interp(x, cr["ref"].t, cr["ref"].voltages["t"]) / np.interp(x, t, cr["i_tb"])
+                assert r_sim == pytest.approx(r_ref, rel=1e-3), (section, cell, x, WHY_R)
+        margins[section] = _margins(run)
+        rows.append(f"{section:3s} read margin (I_P/I_AP - 1 of the bit-line current at 0.1 V): "
+                    f"X00 {margins[section]['x00'] * 100:.1f} %, X01 {margins[section]['x01'] * 100:.1f} %")
+    print("\n2x2 array, read margins:\n" + "\n".join(rows))
+    for section, m in margins.items():
+        assert min(m.values()) > 0.8, section  # TMR 130 % at 0 V, ~125 % at the 0.1 V read, less the transistor
+    # the slow corner has the larger RA and the smaller TMR, the fast one the opposite
+    for cell in ARRAY_WRITES:
+        assert margins["ss"][cell] < margins["tt"][cell] < margins["ff"][cell]
+
+
+@pytest.mark.simulator
+def test_array_monte_carlo_run_is_seeded_and_its_draws_are_read_back(array_runs, tmp_path, ngspice):
+    run = array_runs["mc"]
+    draws = {cell: {k: v for k, v in run["cells"][cell]["inst"].items() if k.startswith("zl_")} for cell in ARRAY_CELLS}
+    assert all(v != 0.0 for d in draws.values() for v in d.values())
+    assert len({tuple(d.values()) for d in draws.values()}) == 4  # mismatch: each junction its own draws
+    assert any(v != 0.0 for k, v in run["cells"]["x00"]["inst"].items() if k.startswith("zg_"))
+    # the same seed draws the same values again
+    _, _, again = run_deck("stt_2x2_array.cir.j2", "pmtj35_demo.toml", tmp_path, section="mc", seed=ARRAY_SEED)
+    for cell in ARRAY_CELLS:
+        assert _array_instance(run["c"], again, cell, "mc") == run["cells"][cell]["inst"]
+    # the tt run and the mc run differ in the written cells' resistances (the draws are used)
+    assert run["data"]["x00.res"][0] != array_runs["tt"]["data"]["x00.res"][0]

@@ -82,7 +82,9 @@ class SttMtj(DeviceKind):
             Figure("r_p", r_p, "ohm", "resistance, parallel state, zero bias"),
             Figure("r_ap", r_p * (1 + P["tmr0"]), "ohm", "resistance, antiparallel state, zero bias"),
             Figure("tmr_read", tunnelling.tmr_bias(P["tmr0"], READ_BIAS, P["v_half"]), "1",
-                   f"TMR ratio at the read bias {READ_BIAS:g} V"),
+                   f"TMR ratio at the read bias {READ_BIAS:g} V",
+                   condition=f"V = {READ_BIAS:g} V across the junction: a fixed read bias of this datasheet, "
+                             "not a card parameter"),
             Figure("hk_eff", fl["hk_eff_t"], "A/m", "effective anisotropy field"),
             Figure("delta", fl["delta_t"], "1", "thermal stability factor E_b/(k_B T)"),
             Figure("i_c0", i_c0, "A", "zero-temperature STT critical current",

@@ -77,3 +77,12 @@ def sigmas_from_uncertainty(values: dict[str, float], uncertainty: dict[str, flo
         if key in out and key not in given and values.get(name):
             out[key] = min(abs(err / values[name]), 1.0)
     return out
+
+
+#: name prefixes of the statistical draws: global (zg_, one value per circuit) and local (zl_, per instance)
+DRAW_PREFIXES = ("zg_", "zl_")
+
+
+def is_draw(name: str) -> bool:
+    """True for a statistical-draw parameter (a standard-normal value a Monte Carlo run draws)."""
+    return name.startswith(DRAW_PREFIXES)

@@ -1,0 +1,45 @@
+"""Simulator settings the project recommends, with the measurements behind them.
+
+The datasheet states these (templates/datasheet/model.md.j2); the designer decks in ngspice_decks/
+use DECK_OPTIONS, the verification harness HARNESS_OPTIONS.  The step cap is given in points per
+precession period of the card's own FMR frequency: max step = 1/(POINTS_PER_PERIOD f_fmr).
+"""
+from __future__ import annotations
+
+#: transient options of the designer decks (ngspice_decks/*.cir), and why each value
+DECK_OPTIONS = (
+    ("method", "trap", "the trapezoidal rule keeps the precession's amplitude; gear damps it numerically"),
+    ("reltol", "1e-4", "with the step cap above, switching times within 0.4 % of the reference (table); "
+                       "reltol=1e-6 gives 0.05 % whatever the cap, for about twice the CPU time"),
+    ("abstol", "1e-12", "1 pA: far below every current that matters (read currents of microamperes; the state "
+                        "nodes' residual currents are of order 1 A because the residual is scaled to O(1))"),
+    ("vntol", "1e-7", "the states are node voltages of magnitude 1 (m_x, m_y, m_z), resolved to 1e-7"),
+    ("chgtol", "1e-20", "the state nodes carry charges tsc*m of about {state_charge} C, so a charge tolerance far "
+                        "below reltol*q keeps the step control relative; measured: ngspice's default 1e-14 C gave "
+                        "the same switching times here, because the step cap limits the step first"),
+)
+
+#: VACASK settings with the same meaning (its netlist control block)
+VACASK_OPTIONS = 'tran_method="trap" reltol=1e-4 tran_fbr=0.01'
+VACASK_WHY = "tran_fbr=0.01 for accurate steps after pulse edges (measured); maxstep = the step cap"
+
+#: options of the verification harness (ngspice_decks/bench.cir.j2): tighter, so that the rendered
+#: models are compared with the reference and not with the integrator's tolerance
+HARNESS_OPTIONS = "method=trap reltol=1e-6 abstol=1e-15 vntol=1e-9 chgtol=1e-22 trtol=1"
+
+#: recommended step cap in points per precession period (from STEP_CAP_TABLE, reltol 1e-4)
+POINTS_PER_PERIOD = 50
+
+#: switching-time error against the reference and CPU time versus the step cap, measured with
+#: benchmarks/bench_step_cap.py (designer options, reltol 1e-4) in ngspice 39 (shared library,
+#: one OpenMP thread) and VACASK with openvaf-r, on one 2-core machine shared with other work
+STEP_CAP_MEASURED = dict(
+    card="pmtj35_demo", f_fmr="1.208e10 Hz", period="82.78 ps",
+    benches="AP->P and P->AP writes at 2 x I_c0 (reference switching times 2.946 ns and 3.324 ns)",
+    # points per period (0 = no cap), ngspice error %, ngspice CPU relative to N = 25, VACASK error %, VACASK CPU
+    rows=((10, 1.18, 1.04, 0.57, 0.84), (25, 0.93, 1.00, 0.60, 1.00), (50, 0.32, 1.82, 0.41, 1.18),
+          (100, 0.10, 3.01, 0.20, 1.58), (0, 1.17, 0.91, 0.57, 0.68)),
+    reltol_1e6="with reltol=1e-6 the error is 0.05 % (ngspice) and 0.10 % (VACASK) for every cap, at about "
+               "twice the CPU time of reltol=1e-4 with N = 50",
+    no_cap="No cap: ngspice then limits the step to the .tran print step (10 ps here), VACASK to its own default",
+)

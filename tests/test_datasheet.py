@@ -1,0 +1,119 @@
+"""The datasheet is enough to design with: step cap from the card's own precession period, usage
+lines safe in every library section, every node listed with its scale, conditions on every
+figure, the options the decks use."""
+from __future__ import annotations
+
+import re
+
+import numpy as np
+import pytest
+
+from compactgen import render
+from compactgen.build import build_files
+from compactgen.reference import figures
+from compactgen.sim import run_ngspice
+from compactgen.sim.options import DECK_OPTIONS, POINTS_PER_PERIOD
+
+from helpers import ROOT, card_with, example_card
+
+
+@pytest.fixture(scope="module")
+def built():
+    card = example_card()
+    return card, card.ir(), build_files(card)
+
+
+def _section(md: str, title: str) -> str:
+    start = md.index(f"## {title}")
+    nxt = md.find("\n## ", start + 3)
+    return md[start:nxt if nxt > 0 else None]
+
+
+def test_step_cap_is_the_cards_own_precession_period_over_n(built):
+    card, ir, files = built
+    md = files[f"{ir.name}.md"]
+    cap = 1.0 / (POINTS_PER_PERIOD * figures(ir)["f_fmr"])
+    assert f"**Step cap {cap * 1e12:.3g} ps**" in md and f"0 {cap * 1e12:.3g}p\n```" in md
+    assert "1/25 of the precession period" not in md and "about 2e-12" not in md
+    # another card, another period: a stiffer free layer precesses faster and gets a smaller cap
+    other = card_with("stt-mtj", "stiff", diameter='"35 nm"', t_free='"1.1 nm"', ki='"1.3 mJ/m^2"')
+    f2 = figures(other.ir())["f_fmr"]
+    assert f2 > 1.5 * figures(ir)["f_fmr"]
+    md2 = build_files(other)["stiff.md"]
+    assert f"**Step cap {1e12 / (POINTS_PER_PERIOD * f2):.3g} ps**" in md2
+
+
+def test_options_of_the_designer_decks_are_the_ones_the_datasheet_states(built):
+    md = built[2][f"{built[1].name}.md"]
+    line = " ".join(f"{k}={v}" for k, v, _ in DECK_OPTIONS)
+    assert f".options {line}\n" in md
+    for k, v, _ in DECK_OPTIONS:
+        assert f"| `{k}` | {v} |" in md
+    for deck in sorted((ROOT / "ngspice_decks").glob("*.cir")) + [ROOT / "ngspice_decks" / "stt_2x2_array.cir.j2"]:
+        opts = re.search(r"^\.options (.*)$", deck.read_text(), re.M).group(1)
+        assert opts.startswith(line), (deck.name, opts)
+
+
+def test_usage_lines_list_every_instance_parameter_and_no_draw(built):
+    _, ir, files = built
+    md, lib = files[f"{ir.name}.md"], files[f"{ir.name}.lib"]
+    instance = [s.name for s in ir.params if s.kind == "instance" and not s.name.startswith(("zg_", "zl_"))]
+    usage = render.usage_instance(ir)
+    for text in (md, lib):
+        assert usage in text
+    for block in re.findall(r"```(?:spice)?\n(.*?)```", _section(md, "Use"), re.S):
+        for line in block.splitlines():
+            if line.lower().startswith("x1"):
+                assert all(f" {n}=" in line for n in instance), line
+                assert "zl_" not in line and "zg_" not in line, line
+
+
+def test_every_node_of_the_subcircuit_is_listed_with_its_scale(built):
+    _, ir, files = built
+    md, lib = files[f"{ir.name}.md"], files[f"{ir.name}.lib"]
+    body = lib[lib.index(".subckt"):lib.index(".ends")]
+    nodes = {ir.terminals[0].name, ir.terminals[1].name}
+    for line in body.splitlines():
+        f = line.split()
+        if f and f[0][0] in "RBCVI" and not line.startswith("+"):
+            nodes |= {n for n in f[1:3] if n != "0"}
+    table = _section(md, "Nodes inside the models")
+    rows = {}
+    for line in table.splitlines():
+        cells = [c.strip() for c in re.split(r"(?<!\\)\|", line)[1:-1]]  # cells may hold escaped pipes
+        if len(cells) == 4 and cells[0].startswith("`"):
+            rows[cells[0].strip("`")] = cells[3]
+    assert nodes == set(rows), nodes ^ set(rows)
+    assert all(v.strip() for v in rows.values())
+    assert rows["res"].strip() == "1 V = 1 kohm" and rows["jdens"].strip() == "1 V = 1 MA/cm^2"
+
+
+def test_every_figure_states_its_conditions(built):
+    _, ir, files = built
+    md = files[f"{ir.name}.md"]
+    rows = {m.group(1): m.group(2) for m in re.finditer(r"^\| `(\w+)` \| [^|]+ \| ([^|]+) \|", _section(md, "Key figures"), re.M)}
+    assert set(rows) == {f.name for f in ir.figures}
+    assert "T = tnom = 27 degC" in rows["delta"]
+    assert "fixed read bias of this datasheet, not a card parameter" in rows["tmr_read"] and "0.1 V" in rows["tmr_read"]
+
+
+def test_monte_carlo_section_says_how_to_seed_and_read_back(built):
+    _, ir, files = built
+    mc = _section(files[f"{ir.name}.md"], "Corners and Monte Carlo")
+    assert ".options seed=N" in mc and "@i.x1.izl_ra[dc]" in mc
+    assert "typical mean only" not in mc and "no Monte Carlo about ss or ff" in mc
+
+
+@pytest.mark.simulator
+def test_the_usage_line_keeps_mismatch_on_in_the_mc_section(tmp_path, ngspice):
+    # the old usage line set every draw to 0.0 on the instance: copied into an `mc` run it turned
+    # mismatch off and every copy of the cell read the same resistance
+    ir = example_card().ir()
+    (tmp_path / f"{ir.name}.lib").write_text(render.ngspice(ir))
+    usage = render.usage_instance(ir)
+    lines = [usage.replace("X1 t b", f"X{i} t 0", 1) for i in range(1, 4)]
+    deck = "\n".join([f"usage line in mc", f".lib {tmp_path / ir.name}.lib mc", "Vt t 0 0.1", *lines,
+                      ".options seed=5", ".tran 1p 2p"]) + "\n"
+    data = run_ngspice(deck)
+    r = [float(data[f"x{i}.res"][0]) for i in range(1, 4)]
+    assert len(set(r)) == 3 and np.ptp(r) / np.mean(r) > 1e-4  # mismatch sigma of ra is 1.5 %
