@@ -60,11 +60,7 @@ def _extensions():
     ``add_commands(subparsers)``."""
     out = []
     for mod in ("compactgen.calibrate.commands", "compactgen.release", "compactgen.thermal_commands",
-<<<<<<< HEAD
-                "compactgen.card_sweep"):
-=======
-                "compactgen.range_report"):
->>>>>>> wt-b
+                "compactgen.card_sweep", "compactgen.range_report"):
         try:
             m = __import__(mod, fromlist=["add_commands"])
         except ModuleNotFoundError as exc:
