@@ -16,7 +16,7 @@ from pathlib import Path
 
 import sympy as sp
 
-from . import __version__, render
+from . import __version__, bignum, render
 from .card import Card
 from .errors import CompactgenError
 from .ir import ModelIR
@@ -67,10 +67,19 @@ def _cell(text: str) -> str:
 
 
 def _fmt(x: float, unit: str) -> str:
+    u = "" if unit in ("1", "") else f" {unit}"
+    if bignum.is_overflow(x):
+        return f"{bignum.sci(x)}{u}"
     if not math.isfinite(x):
         return str(x)
-    u = "" if unit in ("1", "") else f" {unit}"
     return f"{x:.6g}{u}"
+
+
+def _manifest_figure(x: float):
+    """A key figure in manifest.json: a number, or {"log10": ...} beyond the double range."""
+    if bignum.is_overflow(x):
+        return {"log10": float(f"{x.log10:.12g}")}
+    return float(f"{x:.12g}") if math.isfinite(x) else None
 
 
 def build_files(card: Card) -> dict[str, str]:
@@ -89,10 +98,10 @@ def build_files(card: Card) -> dict[str, str]:
         "card_sha256": card.sha256(),
         "model_digest": ir.digest(),
         "parameter_digest": render.param_digest(ir),
-        "figures": {k: float(f"{v:.12g}") for k, v in figs.items()},
+        "figures": {k: _manifest_figure(v) for k, v in figs.items()},
         "files": {k: hashlib.sha256(v.encode()).hexdigest() for k, v in sorted(files.items())},
     }
-    files["manifest.json"] = json.dumps(manifest, indent=2, sort_keys=True) + "\n"
+    files["manifest.json"] = json.dumps(manifest, indent=2, sort_keys=True, allow_nan=False) + "\n"
     return files
 
 

@@ -13,6 +13,7 @@ import numpy as np
 import sympy as sp
 from scipy.integrate import solve_ivp
 
+from . import bignum
 from .errors import OutOfCalibratedRange, RangeError
 from .ir import ModelIR
 
@@ -52,19 +53,23 @@ def numeric_parameters(ir: ModelIR, overrides: dict[str, float] | None = None) -
     return num
 
 
-def _evaluate(expr: sp.Expr, num: dict, what: str) -> float:
+def _evaluate(expr: sp.Expr, num: dict, what: str, big: bool = False) -> float:
+    """``expr`` with the numbers ``num`` as a float; with ``big`` a positive value beyond the
+    double range comes back as a bignum.Overflow (inf that keeps its log10) instead of plain inf."""
     value = sp.sympify(sp.sympify(expr).xreplace(num))
     if isinstance(value, sp.Piecewise):
         value = value.doit()
     try:
-        return float(value.evalf(17))
+        value = value.evalf(17)
+        return bignum.from_sympy(value) if big else float(value)
     except TypeError as exc:
         raise ValueError(f"cannot evaluate {what}: {value}") from exc
 
 
 def figures(ir: ModelIR, overrides: dict[str, float] | None = None,
             temperature: float | None = None) -> dict[str, float]:
-    """Key figures as floats, at ``temperature`` [K] (default: the parameters' own ``tnom``)."""
+    """Key figures as floats, at ``temperature`` [K] (default: the parameters' own ``tnom``); one
+    beyond the double range (a retention time of a large pillar) is a bignum.Overflow."""
     num = numeric_parameters(ir, overrides)
     tdep = ir.temperature_dependent()
     if tdep:
@@ -74,7 +79,7 @@ def figures(ir: ModelIR, overrides: dict[str, float] | None = None,
         for sym, expr in ir.derived:
             if sym in tdep:
                 num[sym] = _evaluate(expr, num, str(sym))
-    return {f.name: _evaluate(f.expr, num, f.name) for f in ir.figures}
+    return {f.name: _evaluate(f.expr, num, f.name, big=True) for f in ir.figures}
 
 
 @dataclass

@@ -4,10 +4,12 @@ critical current against temperature, write-error-rate curves, switching-probabi
 from __future__ import annotations
 
 import html
+import math
 from pathlib import Path
 
 import numpy as np
 
+from . import bignum
 from .analytic import precessional_probability, retention_time
 from .constants import ZERO_CELSIUS
 from .ir import ModelIR
@@ -43,9 +45,11 @@ def thermal_context(ir: ModelIR) -> dict | None:
 
 
 def _duration(seconds: float) -> str:
+    year = 365.25 * 86400
+    if bignum.is_overflow(seconds):
+        return f"{bignum.sci(bignum.Overflow(seconds.log10 - math.log10(year)), 3)} years"
     if not np.isfinite(seconds):
         return "—"
-    year = 365.25 * 86400
     if seconds >= 1e3 * year:
         return f"{seconds / year:.2e} years"
     if seconds >= year:

@@ -19,7 +19,7 @@ import tempfile
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .. import __version__
+from .. import __version__, bignum
 from ..errors import ReleaseError
 from .curves import CurveTable, read_csv
 from .semver import Version, parse_version
@@ -277,7 +277,7 @@ def release_manifest(card, ir, version: Version, suite, figures: dict[str, float
     """Everything but the file hashes, the comparison and the date."""
     from .. import render
 
-    fig_rec = {f.name: {"value": figures[f.name], "unit": f.unit, "desc": f.desc} for f in ir.figures}
+    fig_rec = {f.name: dict(bignum.to_record(figures[f.name]), unit=f.unit, desc=f.desc) for f in ir.figures}
     return json_safe({
         "format": FORMAT,
         "name": ir.name,

@@ -7,7 +7,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .. import __version__
+from .. import __version__, bignum
 from .compare import Band, Comparison, CurveRow
 
 _PREFIX = ((1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"), (1e-9, "n"),
@@ -23,6 +23,10 @@ def value_text(x: float | None, unit: str) -> str:
     """4 significant digits, with an SI prefix for the plain units designers read (2.946 ns)."""
     if x is None or (isinstance(x, float) and math.isnan(x)):
         return "—"
+    if bignum.is_overflow(x):  # beyond the double range: the true exponent, as in the datasheet
+        if unit == "s":
+            return f"{bignum.sci(x, 4)} s ({bignum.sci(bignum.Overflow(x.log10 - math.log10(YEAR)), 3)} years)"
+        return bignum.sci(x, 4) + ("" if unit in ("", "1") else f" {unit}")
     if math.isinf(x):
         return "inf"
     if unit == "s" and abs(x) >= 1e3:  # retention-like times: seconds and years, no giga-seconds
@@ -138,6 +142,15 @@ def summary_section(c: Comparison) -> Section:
 def change_text(r) -> str:
     """Relative change, or the absolute one for figures with an absolute band (values near 0 or +-1)."""
     if r.old is None or r.new is None:
+        return "—"
+    if bignum.is_overflow(r.old) or bignum.is_overflow(r.new):
+        d = bignum.log10_of(r.new) - bignum.log10_of(r.old)
+        if d == 0:
+            return "0"
+        if math.isnan(d):
+            return "—"
+        return f"x {10 ** d:.3g}" if abs(d) < 300 else f"x 10^{d:+.4g}"
+    if not (math.isfinite(r.old) and math.isfinite(r.new)):
         return "—"
     if r.band.log and r.old > 0 and r.new > 0 and r.new != r.old:
         return f"x {r.new / r.old:.3g}"

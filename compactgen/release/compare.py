@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .. import bignum
 from ..errors import ReleaseError
 from .bundle import Bundle
 from .curves import CurveTable
@@ -112,13 +113,21 @@ def band_for(name: str, unit: str, rules=FIGURE_BANDS) -> Band:
 
 def _error(old, new, band: Band) -> float:
     """|new - old| / (atol + rtol |old|); 0 when both are missing, inf when one is."""
-    o = math.nan if old is None else float(old)
-    n = math.nan if new is None else float(new)
+    o = math.nan if old is None else old
+    n = math.nan if new is None else new
     if math.isnan(o) or math.isnan(n):
         return 0.0 if (math.isnan(o) and math.isnan(n)) else math.inf
-    d = abs(n - o)
-    if d == 0.0:
+    if bignum.is_overflow(o) or bignum.is_overflow(n):  # beyond the double range: judged by log10
+        lo, ln = bignum.log10_of(o), bignum.log10_of(n)
+        if lo == ln:
+            return 0.0
+        if band.log and not (math.isnan(lo) or math.isnan(ln)):
+            return abs(ln - lo) * bignum.LN10 / math.log(1 + band.rtol)
+        return math.inf
+    o, n = float(o), float(n)
+    if o == n:
         return 0.0
+    d = abs(n - o)
     if band.log:
         return abs(math.log(n / o)) / math.log(1 + band.rtol) if n > 0 and o > 0 else math.inf
     scale = band.atol + band.rtol * abs(o)
@@ -127,8 +136,8 @@ def _error(old, new, band: Band) -> float:
 
 # ---- rows ------------------------------------------------------------------------------------
 def rel_change(old: float | None, new: float | None) -> float | None:
-    """(new - old) / |old|, or None when either is missing or old is 0."""
-    if old is None or new is None or old == 0:
+    """(new - old) / |old|, or None when either is missing or not finite, or old is 0."""
+    if old is None or new is None or old == 0 or not (math.isfinite(old) and math.isfinite(new)):
         return None
     return (new - old) / abs(old)
 
@@ -427,15 +436,16 @@ def compare_figures(old: dict, new: dict) -> list[FigureRow]:
         unit = (b or a)["unit"]
         band = band_for(name, unit)
         desc = (b or a).get("desc", "")
+        va = None if a is None else bignum.from_record(a)
+        vb = None if b is None else bignum.from_record(b)
         if a is None:
-            rows.append(FigureRow("key figure", name, unit, None, b["value"], band, 0.0, "new", desc=desc))
+            rows.append(FigureRow("key figure", name, unit, None, vb, band, 0.0, "new", desc=desc))
             continue
         if b is None:
-            rows.append(FigureRow("key figure", name, unit, a["value"], None, band, math.inf, "REMOVED", desc=desc))
+            rows.append(FigureRow("key figure", name, unit, va, None, band, math.inf, "REMOVED", desc=desc))
             continue
-        err = _error(a["value"], b["value"], band)
-        rows.append(FigureRow("key figure", name, unit, a["value"], b["value"], band, err, _status(err),
-                              "model", desc))
+        err = _error(va, vb, band)
+        rows.append(FigureRow("key figure", name, unit, va, vb, band, err, _status(err), "model", desc))
     return rows
 
 
