@@ -10,6 +10,7 @@ import sympy as sp
 
 from ..physics import anisotropy, geometry, macrospin, temperature, thermal, tunnelling
 from ..physics.constants import const_values, gamma0
+from ..ir import Constraint
 from ..params import ParamSpec
 
 NM = 1e-9
@@ -171,8 +172,8 @@ def free_layer(parts: Parts, area):
     hk = parts.d("hk", anisotropy.anisotropy_field(ku, ms_nom))
     nx = parts.d("demag_nx", (1 - P["demag_nz"]) / 2)
     hk_eff = parts.d("hk_eff", anisotropy.effective_anisotropy_field(hk, ms_nom, nx, P["demag_nz"]))
-    parts.constraints.append((hk_eff, "the effective anisotropy field H_k,eff must be positive "
-                              "(perpendicular free layer); raise ki or lower ms"))
+    parts.constraints.append(Constraint(hk_eff, "the effective anisotropy field H_k,eff = {value} must be positive "
+                                        "(perpendicular free layer; raise ki or lower ms)", "A/m", "kA/m"))
     vol = parts.d("vol", area * P["t_free"], positive=True)
     keff = parts.d("keff", anisotropy.effective_energy_density(hk_eff, ms_nom))
     e_b = parts.d("e_b", thermal.barrier_energy(keff, vol))
@@ -231,9 +232,12 @@ def mtj_conductance(parts: Parts, area, v, cos_theta):
     P = parts.P
     if {"pol_decay", "tnom", "dtemp"} <= set(P):
         p_nom = parts.d("pol_nom", tunnelling.julliere_polarisation(P["tmr0"]), positive=True)
-        parts.constraints.append((1 - P["pol_decay"] * P["tnom"] ** sp.Rational(3, 2) - p_nom,
-                                  "pol_decay is too large for tmr0: the spin polarisation would exceed 1 "
-                                  "at low temperature; lower pol_decay"))
+        bound = (1 - p_nom) / P["tnom"] ** sp.Rational(3, 2)
+        parts.constraints.append(Constraint(
+            bound - P["pol_decay"],
+            "{pol_decay} must be below (1 - P)/tnom^1.5 = {bound} for {tmr0} at {tnom} (P = sqrt(tmr0/(2 + tmr0)), "
+            "else the spin polarisation would exceed 1 at low temperature); lower pol_decay, or leave it out of "
+            "the card to have it computed", "1/K^1.5", shown=(("bound", bound),)))
         temp = device_temperature(parts)
         pol_t = parts.d("pol_t", p_nom * temperature.polarisation_ratio(temp, P["tnom"], P["pol_decay"]))
         P["tmr0"] = parts.d("tmr_t", tunnelling.julliere_tmr(pol_t, pol_t))
