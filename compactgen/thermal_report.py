@@ -22,11 +22,11 @@ WER_WIDTHS = (2e-9, 5e-9, 10e-9, 20e-9)
 
 def thermal_context(ir: ModelIR) -> dict | None:
     """Numbers for the datasheet's thermal section, or None for a model without a free layer."""
+    if not {"delta", "i_c0"} <= {f.name for f in ir.figures}:
+        return None
     try:
         figs = {t: figures(ir, temperature=t + ZERO_CELSIUS) for t in TABLE_TEMPS_C}
     except KeyError:
-        return None
-    if "delta" not in figs[25.0] or "i_c0" not in figs[25.0]:
         return None
     rows = []
     for t, f in figs.items():
