@@ -41,8 +41,9 @@ def datasheet(card: Card, ir: ModelIR, figs: dict[str, float]) -> str:
     prm = []
     for s in ir.params:
         stderr = card.uncertainty.get(s.name)
+        desc = s.desc if not s.computed or s.name in card.given else f"{s.desc}; computed {s.computed}"
         prm.append(dict(name=s.name, value=s.card_text(), range=s.range_text(s.card_unit), kind=s.kind,
-                        desc=_cell(s.desc), source=_cell(s.source), stderr=s.card_text(stderr) if stderr else ""))
+                        desc=_cell(desc), source=_cell(s.source), stderr=s.card_text(stderr) if stderr else ""))
     ctx = dict(
         name=ir.name, title=ir.title, kind=ir.kind, version=__version__, digest=ir.digest(),
         param_digest=render.param_digest(ir), description=card.description,

@@ -18,6 +18,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .devices import get_kind, kinds
+from .devices.common import shared_defaults
 from .errors import CardError, InputError, RangeError
 from .ir import ModelIR
 from .units import to_si
@@ -112,7 +113,7 @@ def parse_card(text: str, where: str = "<card>", path: Path | None = None) -> Ca
                              f"{spec.range_text(spec.card_unit)} ({spec.desc})") from None
         values[spec.name] = v
     given = frozenset(params)
-    values = kind.derive_defaults(values, options, given)
+    values = shared_defaults(table, kind.derive_defaults(values, options, given), given)
     uncertainty = {}
     for k, v in doc.get("uncertainty", {}).items():
         if k not in table:

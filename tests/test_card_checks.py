@@ -4,12 +4,16 @@ from __future__ import annotations
 
 import contextlib
 import io
+import math
 
 import pytest
 
 from compactgen.card import starter_card
 from compactgen.cli import main
 from compactgen.constants import MU0
+from compactgen.reference import figures
+
+from helpers import card_with
 
 
 def run(*args: str) -> tuple[int, str]:
@@ -17,6 +21,56 @@ def run(*args: str) -> tuple[int, str]:
     with contextlib.redirect_stderr(err), contextlib.redirect_stdout(io.StringIO()):
         code = main(list(args))
     return code, err.getvalue()
+
+
+def _polarisation(tmr: float) -> float:
+    """Julliere inverted for identical electrodes: TMR = 2P^2/(1 - P^2)."""
+    return math.sqrt(tmr / (2 + tmr))
+
+
+# ---- tmr0 and pol_decay ----------------------------------------------------------------------
+@pytest.mark.parametrize("kind, tmr0, tnom", [
+    ("stt-mtj", 0.0, 300.15), ("stt-mtj", 5.0, 300.15), ("stt-mtj", 8.5, 300.15), ("stt-mtj", 10.0, 300.15),
+    ("stt-mtj", 10.0, 150.0), ("stt-mtj", 10.0, 500.0), ("stt-mtj", 4.0, 500.0),
+    ("sot-mtj", 10.0, 500.0), ("dw-mtj", 10.0, 500.0),
+])
+def test_documented_tmr0_range_is_reachable_without_pol_decay(kind, tmr0, tnom):
+    card = card_with(kind, "hightmr", tmr0=repr(tmr0), tnom=f'"{tnom} K"')
+    assert "pol_decay" not in card.given
+    a = card.values["pol_decay"]
+    p = _polarisation(tmr0)
+    # the polarisation extrapolated to 0 K (Shang's law) stays below 1, with room to spare
+    p0 = p / (1 - a * tnom ** 1.5)
+    assert 0 <= a and p0 < 1 and (p0 - p) <= (1 - p) / 2 * (1 + 1e-12)
+    if (1 - p) / tnom ** 1.5 > 2 * 2e-5:  # where the kind default is valid with the same room, it is kept
+        assert a == 2e-5
+    ir = card.ir()
+    for t in (0.5 * tnom, tnom, 1.2 * tnom):  # TMR(T) is finite and follows P(T)
+        f = figures(ir, temperature=t)
+        tmr_t = f["r_ap"] / f["r_p"] - 1
+        p_t = p * (1 - a * t ** 1.5) / (1 - a * tnom ** 1.5)
+        assert tmr_t == pytest.approx(2 * p_t ** 2 / (1 - p_t ** 2), rel=1e-9, abs=1e-12)
+
+
+def test_starter_card_explains_the_tmr0_pol_decay_relation():
+    text = starter_card("stt-mtj")
+    line = next(x for x in text.splitlines() if x.startswith("# pol_decay = "))
+    for fragment in ("computed from tmr0 and tnom unless given", "sqrt(tmr0/(2 + tmr0))",
+                     "must be below (1 - P)/tnom^1.5"):
+        assert fragment in line
+
+
+def test_given_pol_decay_too_large_for_tmr0_is_refused_in_card_terms(tmp_path):
+    card = tmp_path / "card.toml"
+    card.write_text(starter_card("stt-mtj", "hightmr").replace("tmr0 = 1.5", "tmr0 = 10")
+                    .replace('# pol_decay = "2e-05 1/K^1.5"', 'pol_decay = "3e-5 1/K^1.5"'))
+    out = tmp_path / "out"
+    code, err = run("build", str(card), "-o", str(out))
+    bound = (1 - _polarisation(10.0)) / 300.15 ** 1.5
+    assert code == 2 and err.count("\n") == 1 and not out.exists()
+    assert err.startswith(f"compactgen build: error: {card}: pol_decay = 3e-05 1/K^1.5 must be below "
+                          f"(1 - P)/tnom^1.5 = {bound:.4g} 1/K^1.5 for tmr0 = 10 at tnom = 27 degC")
+    assert "(got" not in err
 
 
 # ---- refusals in card terms ----------------------------------------------------------------------

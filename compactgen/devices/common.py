@@ -74,8 +74,33 @@ def mtj_read_specs() -> list[ParamSpec]:
         ParamSpec("pol_decay", "1/K^1.5", 2e-5, 0.0, 1e-4,
                   "spin-polarisation decay alpha_sp in P(T) = P0 (1 - alpha_sp T^(3/2)) (TMR(T) through Julliere)",
                   source="C. H. Shang et al., Phys. Rev. B 58, R2917 (1998) (law seen; value illustrative)",
-                  card_unit="1/K^1.5", group="temperature"),
+                  card_unit="1/K^1.5", group="temperature",
+                  computed="from tmr0 and tnom unless given: 2e-05 1/K^1.5, lowered to (1 - P)/(2 tnom^1.5) where "
+                           "tmr0 needs it. P = sqrt(tmr0/(2 + tmr0)) is the polarisation at tnom (Julliere); the "
+                           "0 K polarisation P/(1 - pol_decay tnom^1.5) must stay below 1, so a given value must "
+                           "be below (1 - P)/tnom^1.5 (at 27 degC: 3.5e-5 for tmr0 = 4, 1.7e-5 for tmr0 = 10)"),
     ]
+
+
+def default_pol_decay(tmr0: float, tnom: float, kind_default: float = 2e-5) -> float:
+    """The pol_decay a card gets when it gives none: the kind default, lowered where tmr0 is so
+    high that it would put the zero-temperature polarisation P0 = P(tnom)/(1 - a tnom^1.5) at or
+    above 1 (the constraint in mtj_conductance).  The lowered value keeps P0 halfway between
+    P(tnom) and 1: a = (1 - P(tnom))/(2 tnom^1.5), so every tmr0 in [0, 10] at every tnom in the
+    documented range has a valid default, with room left for the larger tmr0 of the ff corner
+    and Monte Carlo draws."""
+    p_nom = float(tunnelling.julliere_polarisation(tmr0))
+    return min(kind_default, (1.0 - p_nom) / (2.0 * tnom ** 1.5))
+
+
+def shared_defaults(table, values: dict[str, float], given: frozenset[str]) -> dict[str, float]:
+    """Defaults every kind with a tunnel junction computes from other card values (after the
+    kind's own ``derive_defaults``; ``table`` is the kind's ParamTable): pol_decay from tmr0 and
+    tnom unless the card gives it."""
+    if "pol_decay" in table and "pol_decay" not in given and {"tmr0", "tnom"} <= set(values):
+        values = dict(values, pol_decay=default_pol_decay(values["tmr0"], values["tnom"],
+                                                          table["pol_decay"].default))
+    return values
 
 
 def limit_specs(v_max: float = 1.2, j_max: float = 1.5e11) -> list[ParamSpec]:
