@@ -2,15 +2,19 @@
 combination is reported in card terms (values with card units and the allowed relation)."""
 from __future__ import annotations
 
+import codecs
 import contextlib
 import io
 import math
+import re
 
 import pytest
 
-from compactgen.card import starter_card
+from compactgen.card import load_card, parse_card, starter_card
 from compactgen.cli import main
 from compactgen.constants import MU0
+from compactgen.errors import CardError
+from compactgen.params import RESERVED, reserved_reason
 from compactgen.reference import figures
 
 from helpers import card_with
@@ -111,3 +115,76 @@ def test_cross_parameter_refusal_names_values_units_and_relation(tmp_path, kind,
     assert "(got" not in err and "margin" not in err
     # variation spreads and draws are not card values of the device: not listed
     assert "sg_" not in err and "zg_" not in err and "area_ref" not in err
+
+
+# ---- encodings and model names -------------------------------------------------------------------
+ENCODINGS = {
+    "utf-8": lambda t: t.encode("utf-8"),
+    "utf-8 with BOM": lambda t: codecs.BOM_UTF8 + t.encode("utf-8"),
+    "utf-16 LE with BOM": lambda t: codecs.BOM_UTF16_LE + t.replace("\n", "\r\n").encode("utf-16-le"),
+    "utf-16 BE with BOM": lambda t: codecs.BOM_UTF16_BE + t.encode("utf-16-be"),
+}
+
+
+@pytest.mark.parametrize("encoding", list(ENCODINGS))
+def test_cards_in_utf8_or_utf16_with_bom_are_read(tmp_path, encoding):
+    text = starter_card("stt-mtj", "enc").replace('description = "', 'description = "Grüße, µ-pillar: ')
+    card = tmp_path / "card.toml"
+    card.write_bytes(ENCODINGS[encoding](text))
+    out = tmp_path / "out"
+    code, err = run("build", str(card), "-o", str(out))
+    assert code == 0, err
+    assert load_card(card).values == load_card(out / "enc.card.toml").values
+    copy = (out / "enc.card.toml").read_bytes()
+    assert copy.decode("utf-8").replace("\r\n", "\n") == text  # the bundle keeps it as UTF-8, no BOM
+    assert "Grüße, µ-pillar" in (out / "enc.md").read_text(encoding="utf-8")
+
+
+@pytest.mark.parametrize("label, encode, fragment", [
+    ("latin-1", lambda t: t.encode("latin-1"), "line 9, column 18: byte 0xfc is not UTF-8"),
+    ("utf-16 without BOM", lambda t: t.encode("utf-16-le"), "NUL bytes"),
+    ("utf-32", lambda t: t.encode("utf-32"), "UTF-32 text"),
+    ("truncated utf-16", lambda t: t.encode("utf-16")[:-1], "UTF-16 byte-order mark but byte"),
+])
+def test_other_encodings_are_one_clear_line_exit_2(tmp_path, label, encode, fragment):
+    text = starter_card("stt-mtj", "enc").replace('description = "', 'description = "Grüße ')
+    assert text.splitlines()[8].startswith('description = "Grü')  # line 9; column 18 is the u-umlaut
+    card = tmp_path / "card.toml"
+    card.write_bytes(encode(text))
+    out = tmp_path / "out"
+    code, err = run("build", str(card), "-o", str(out))
+    assert code == 2 and err.count("\n") == 1 and not out.exists(), err
+    assert err.startswith(f"compactgen build: error: {card}: ") and fragment in err and "UTF-8" in err
+
+
+def test_every_reserved_word_is_refused_as_model_name_with_its_reason():
+    base = starter_card("stt-mtj", "placeholder")
+    assert len(RESERVED) > 300
+    for word in sorted(RESERVED):
+        with pytest.raises(CardError) as exc:
+            parse_card(base.replace('name = "placeholder"', f'name = "{word}"'), "w.toml")
+        msg = str(exc.value)
+        assert msg.startswith(f"w.toml: [device] name = '{word}' is reserved: {reserved_reason(word)};"), msg
+        assert exc.value.exit_status == 2
+
+
+@pytest.mark.parametrize("word, group", [
+    ("module", "Verilog-A"), ("electrical", "disciplines.vams"), ("subckt", "ngspice"), ("pwl", "ngspice"),
+    ("vsource", "VACASK"), ("dut_m", "compactgen"), ("mult", "instance parameter"),
+])
+def test_reserved_model_name_init_and_build_exit_2_and_write_nothing(tmp_path, word, group):
+    card = tmp_path / "c.toml"
+    code, err = run("init", "stt-mtj", "-o", str(card), "--name", word)
+    assert code == 2 and not card.exists() and group in err and f"name = '{word}' is reserved" in err
+    card.write_text(starter_card("stt-mtj", "ok").replace('name = "ok"', f'name = "{word}"'))
+    code, err = run("build", str(card), "-o", str(tmp_path / "out"))
+    assert code == 2 and err.count("\n") == 1 and group in err and not (tmp_path / "out").exists()
+
+
+def test_reserved_groups_name_the_identifiers_our_decks_use():
+    """The 'generated' group lists names our own deck templates really use at model level."""
+    from compactgen.render import TEMPLATE_DIR
+
+    vacask = "".join(p.read_text() for p in (TEMPLATE_DIR / "vacask").glob("*.j2"))
+    for used in re.findall(r"^\s*model (\w+) ", vacask.replace("{{ m.name }}", ""), re.MULTILINE):
+        assert used in RESERVED
