@@ -18,7 +18,7 @@ import sympy as sp
 
 from . import __version__, bignum, render
 from .card import Card
-from .errors import CompactgenError
+from .errors import InputError
 from .ir import ModelIR
 from .printing.base import format_number
 from .reference import figures as eval_figures
@@ -113,7 +113,7 @@ def write_files(files: dict[str, str | bytes], out_dir: str | Path) -> list[Path
     out = Path(out_dir)
     existed = out.exists()
     if existed and not out.is_dir():
-        raise CompactgenError(f"{out}: exists and is not a folder")
+        raise InputError(f"{out}: exists and is not a folder")
     out.mkdir(parents=True, exist_ok=True)
     stage = Path(tempfile.mkdtemp(prefix=".compactgen-", dir=out))
     written = []

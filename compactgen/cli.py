@@ -8,7 +8,7 @@ import sys
 from pathlib import Path
 
 from . import __version__
-from .errors import CompactgenError, VerificationFailed
+from .errors import CompactgenError, InputError, VerificationFailed
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 
@@ -80,7 +80,7 @@ def cmd_init(args) -> int:
 
     out = Path(args.output)
     if out.exists():
-        raise CompactgenError(f"{out}: exists already; choose another name (init never overwrites)")
+        raise InputError(f"{out}: exists already; choose another name (init never overwrites)")
     text = starter_card(args.kind, args.name)
     parse_card(text, str(out))  # the starter must itself be valid
     out.parent.mkdir(parents=True, exist_ok=True)
@@ -110,27 +110,29 @@ def load_target(target: str):
     if path.is_dir():
         cards = sorted(path.glob("*.card.toml"))
         if len(cards) != 1:
-            raise CompactgenError(f"{path}: expected one NAME.card.toml written by `compactgen build`, "
+            raise InputError(f"{path}: expected one NAME.card.toml written by `compactgen build`, "
                                   f"found {len(cards)}")
         card = load_card(cards[0])
         fresh = build_files(card)
         for name in (f"{card.name}.va", f"{card.name}.lib"):
             f = path / name
             if not f.is_file() or f.read_text() != fresh[name]:
-                raise CompactgenError(f"{f}: missing, edited by hand, or built by another compactgen version; "
+                raise InputError(f"{f}: missing, edited by hand, or built by another compactgen version; "
                                       f"rebuild with `compactgen build {cards[0]} -o {path}`")
         return card
     return load_card(path)
 
 
 def cmd_verify(args) -> int:
-    from .verify import progress_printer, run_suite
+    from .verify import SIMULATORS
 
-    card = load_target(args.target)
     sims = tuple(s.strip() for s in args.sim.split(",") if s.strip())
+    if not sims:
+        raise InputError(f"--sim {args.sim!r}: no simulator named; expected {' and/or '.join(SIMULATORS)}")
     for s in sims:
-        if s not in ("ngspice", "vacask"):
-            raise CompactgenError(f"--sim: unknown simulator {s!r}; expected ngspice and/or vacask")
+        if s not in SIMULATORS:
+            raise InputError(f"--sim: unknown simulator {s!r}; expected {' and/or '.join(SIMULATORS)}")
+    card = load_target(args.target)
     result = verify_card(card, sims, args.report)
     return 0 if result.passed else VerificationFailed.exit_status
 
