@@ -79,6 +79,7 @@ class BundleCheck:
     unexpected: list[str] = field(default_factory=list)
     manifest_problem: str = ""
     n_files: int = 0
+    digest: str = ""  # sha256 of manifest.json as found
 
     @property
     def ok(self) -> bool:
@@ -86,7 +87,8 @@ class BundleCheck:
 
     def text(self) -> str:
         if self.ok:
-            return f"{self.root}: intact ({self.n_files} files and the manifest match their sha256)"
+            return (f"{self.root}: intact ({self.n_files} files and the manifest match their sha256)\n"
+                    f"  bundle digest: {self.digest} (sha256 of {MANIFEST})")
         lines = [f"{self.root}: NOT INTACT"]
         if self.manifest_problem:
             lines.append(f"  manifest.json: {self.manifest_problem}")
@@ -94,6 +96,22 @@ class BundleCheck:
         lines += [f"  missing:    {p}" for p in self.missing]
         lines += [f"  unexpected: {p} (not listed in the manifest)" for p in self.unexpected]
         return "\n".join(lines)
+
+
+#: what the bundle's own hashes prove, said wherever a bundle is checked
+INTEGRITY_ONLY = ("This proves integrity against accidental change only (a damaged or edited file): whoever can "
+                  "write the bundle can also re-hash and re-seal it. To detect deliberate changes, compare the "
+                  "bundle digest with one recorded outside the bundle at release time (--digest), or with the "
+                  "record a later release keeps of it (--against).")
+
+
+def bundle_digest(root: str | Path) -> str:
+    """The digest that identifies a bundle: the sha256 of its manifest.json file (which holds the
+    sha256 of every other file), the same as `sha256sum manifest.json` prints."""
+    path = Path(root) / MANIFEST
+    if not path.is_file():
+        raise ReleaseError(f"{root}: no {MANIFEST}; not a release bundle made by `compactgen release`")
+    return sha256(path.read_bytes())
 
 
 def sha256(data: bytes | str) -> str:
@@ -131,7 +149,7 @@ def check_bundle(root: str | Path) -> BundleCheck:
     """Re-hash every file of a bundle and the manifest itself."""
     root = Path(root)
     manifest = _read_manifest(root)
-    check = BundleCheck(root)
+    check = BundleCheck(root, digest=bundle_digest(root))
     listed = manifest.get("files")
     if not isinstance(listed, dict):
         check.manifest_problem = "has no table of file hashes"

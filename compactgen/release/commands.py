@@ -1,14 +1,15 @@
 """`compactgen release`, `compactgen compare`, `compactgen check-release`, and the demo step."""
 from __future__ import annotations
 
+import re
 import sys
 import time
 from dataclasses import dataclass
 from pathlib import Path
 
 from ..errors import CompactgenError, InputError, ReleaseError
-from .bundle import (MANIFEST, SEAL, Bundle, ReleaseRefused, check_bundle, created_stamp, load_bundle, manifest_text,
-                     publish, release_manifest, seal, sha256)
+from .bundle import (INTEGRITY_ONLY, MANIFEST, SEAL, Bundle, ReleaseRefused, bundle_digest, check_bundle,
+                     created_stamp, load_bundle, manifest_text, publish, release_manifest, seal, sha256)
 from .compare import Comparison, compare_bundles
 from .semver import parse_version
 
@@ -23,6 +24,7 @@ class ReleaseOutcome:
     manifest: dict
     comparison: Comparison | None
     suite: object  # verify.SuiteResult
+    digest: str = ""  # sha256 of the bundle's manifest.json (bundle.bundle_digest)
 
 
 def make_release(card_path: str | Path, version: str, out_root: str | Path, against: str | Path | None = None,
@@ -108,15 +110,18 @@ def make_release(card_path: str | Path, version: str, out_root: str | Path, agai
                 f"intended, run again with --accept \"why\" (the reason goes into the manifest and the report)")
         files["changes.md"] = markdown(comparison).encode("utf-8")
         files["changes.html"] = html(comparison, specs).encode("utf-8")
-        manifest["comparison"] = dict(comparison.record(), against_manifest_sha256=prev.manifest.get(SEAL))
+        manifest["comparison"] = dict(comparison.record(), against_manifest_sha256=prev.manifest.get(SEAL),
+                                      against_digest=bundle_digest(prev.root))
     files["verify.html"] = verify_html(suite, f"{card.name} {ver}: verification").encode("utf-8")
     manifest["files"] = {k: sha256(v) for k, v in sorted(files.items())}
     manifest["created"] = created_stamp()
     files[MANIFEST] = manifest_text(seal(manifest)).encode("utf-8")
     path = publish(files, out_root, label)
     refused.unlink(missing_ok=True)
-    say(f"released {path} ({len(files)} files, {time.perf_counter() - t0:.1f} s)")
-    return ReleaseOutcome(path, manifest, comparison, suite)
+    digest = sha256(files[MANIFEST])
+    say(f"released {path} ({len(files)} files, {time.perf_counter() - t0:.1f} s); bundle digest {digest} "
+        f"(sha256 of {MANIFEST}): record this digest elsewhere")
+    return ReleaseOutcome(path, manifest, comparison, suite, digest)
 
 
 def compare_dirs(old: str | Path, new: str | Path, accept: str | None = None) -> Comparison:
@@ -144,13 +149,23 @@ def add_commands(sub) -> None:
     p.add_argument("--accept", help="reason the changes are intended: exit 0 and record it in the report")
     p.set_defaults(func=cmd_compare)
 
-    p = sub.add_parser("check-release", help="re-hash release bundles; report changed, missing or extra files")
+    p = sub.add_parser("check-release", help="re-hash release bundles; report changed, missing or extra files "
+                       "(integrity against accidental change; with --digest or --against also against a record "
+                       "kept outside the bundle)")
     p.add_argument("bundles", nargs="+")
+    p.add_argument("--digest", metavar="SHA256", help="the bundle digest recorded when the bundle was released "
+                   "(printed by `compactgen release`); one bundle only")
+    p.add_argument("--against", metavar="PREVIOUS_BUNDLE", help="check PREVIOUS_BUNDLE against the record the "
+                   "(later) bundle kept of it when it was released with --against; one bundle only")
     p.set_defaults(func=cmd_check_release)
 
 
 def cmd_release(args) -> int:
-    make_release(args.card, args.release_version, args.output, against=args.against, accept=args.accept)
+    out = make_release(args.card, args.release_version, args.output, against=args.against, accept=args.accept)
+    print(f"released {out.path}\nbundle digest: {out.digest} (sha256 of {out.path / MANIFEST})\n"
+          f"Record this digest outside the bundle (release notes, ticket, signed tag): `compactgen check-release "
+          f"{out.path} --digest {out.digest}` then shows the bundle is the one released. The bundle's own hashes "
+          "only catch accidental change.")
     return 0
 
 
@@ -174,6 +189,14 @@ def _plot_specs(bundle_dir) -> dict[str, list[str]]:
 
 
 def cmd_check_release(args) -> int:
+    digest = None
+    if args.digest is not None:
+        digest = args.digest.strip().lower().removeprefix("sha256:")
+        if not re.fullmatch(r"[0-9a-f]{64}", digest):
+            raise InputError(f"--digest {args.digest!r}: expected 64 hexadecimal digits (the sha256 printed by "
+                             "`compactgen release`)")
+    if (digest or args.against) and len(args.bundles) != 1:
+        raise InputError(f"--digest and --against check one bundle; {len(args.bundles)} given")
     bad = 0
     for d in args.bundles:
         try:
@@ -184,7 +207,50 @@ def cmd_check_release(args) -> int:
             continue
         print(result.text())
         bad += not result.ok
+        if digest is not None:
+            if result.digest == digest:
+                print("  digest matches the one recorded at release: this is the bundle that was released")
+            else:
+                print(f"  DIGEST DIFFERS from the one recorded at release ({digest}): this is not the bundle "
+                      "that was released (changed and re-sealed, or another release)")
+                bad += 1
+        if args.against:
+            ok, text = check_previous(d, args.against)
+            print(text)
+            bad += not ok
+    if digest is None and not args.against:
+        print(INTEGRITY_ONLY)
     return 0 if not bad else 1
+
+
+def check_previous(bundle: str | Path, previous: str | Path) -> tuple[bool, str]:
+    """``previous`` against the record ``bundle`` kept of it when it was released with --against:
+    (matches, text).  A bundle without such a record, or one that recorded another release, is
+    an InputError."""
+    later = load_bundle(bundle, check=False).manifest
+    rec = later.get("comparison")
+    if not isinstance(rec, dict):
+        raise InputError(f"--against {previous}: {bundle} was released without --against and keeps no record of "
+                         "a previous release")
+    prev_check = check_bundle(previous)
+    prev = load_bundle(previous, check=False).manifest
+    label = f"{prev.get('name')} {prev.get('version')}"
+    if rec.get("against") != label:
+        raise InputError(f"--against {previous}: that is {label}, but {bundle} was compared against "
+                         f"{rec.get('against')} when it was released")
+    lines = [prev_check.text()]
+    if rec.get("against_digest"):
+        ok = rec["against_digest"] == prev_check.digest
+        recorded = f"digest {rec['against_digest']}"
+    else:  # bundles released before the digest was recorded kept the previous manifest's seal
+        ok = rec.get("against_manifest_sha256") == prev.get(SEAL) and not prev_check.manifest_problem
+        recorded = f"{SEAL} {rec.get('against_manifest_sha256')}"
+    if ok:
+        lines.append(f"  matches the record {bundle} kept of it ({recorded}): unchanged since that release")
+    else:
+        lines.append(f"  DIFFERS from the record {bundle} kept of it ({recorded}): changed after that release "
+                     "(and re-sealed, if it checks out as intact)")
+    return ok and prev_check.ok, "\n".join(lines)
 
 
 # ---- demo ---------------------------------------------------------------------------------------
