@@ -323,21 +323,83 @@ def _write_one(path: Path, content: bytes) -> None:
     path.chmod(0o444)  # read-only: a bundle is not edited after the release
 
 
-def publish(files: dict[str, bytes], out_root: Path, label: str) -> Path:
-    """Write ``files`` into ``out_root/label`` all-or-nothing (stage, then one rename)."""
-    out_root.mkdir(parents=True, exist_ok=True)
-    target = out_root / label
-    for stale in out_root.glob(f".{label}.partial-*"):  # left behind by a killed release
-        shutil.rmtree(stale, ignore_errors=True)
-    stage = Path(tempfile.mkdtemp(prefix=f".{label}.partial-", dir=out_root))
-    try:
-        for rel, content in files.items():
-            _write_one(stage / rel, content)
+STAGING_MARK = ".partial-"
+
+
+class Staging:
+    """The hidden folder ``out_root/.<label>.partial-<pid>-XXXX`` a bundle is written into while
+    a release runs, renamed to ``out_root/<label>`` when complete (``publish``).
+
+    As a context manager it removes the folder on any exception, including the Terminated and
+    KeyboardInterrupt the command line raises on SIGTERM/SIGHUP/SIGINT.  What a process killed
+    outright (SIGKILL, power loss) leaves behind is swept by the next release into ``out_root``:
+    the folder names the process id, and folders of processes that no longer run are removed."""
+
+    def __init__(self, out_root: Path, label: str, say=None):
+        self.out_root = Path(out_root)
+        self.label = label
+        self.out_root.mkdir(parents=True, exist_ok=True)
+        for stale, why in stale_staging(self.out_root, label):
+            shutil.rmtree(stale, ignore_errors=True)
+            if say:
+                say(f"removed {stale}: staging folder of an interrupted release ({why})")
+        self.path = Path(tempfile.mkdtemp(prefix=f".{label}{STAGING_MARK}{os.getpid()}-", dir=self.out_root))
+        self.written: list[str] = []
+
+    def write(self, rel: str, content: bytes) -> None:
+        _write_one(self.path / rel, content)
+        self.written.append(rel)
+
+    def publish(self) -> Path:
+        target = self.out_root / self.label
         if target.exists():
             raise ReleaseError(f"{target}: appeared while the release was being written; nothing overwritten")
-        stage.chmod(0o755)  # mkdtemp makes it private
-        os.rename(stage, target)
-    except BaseException:
-        shutil.rmtree(stage, ignore_errors=True)
-        raise
-    return target
+        self.path.chmod(0o755)  # mkdtemp makes it private
+        os.rename(self.path, target)
+        return target
+
+    def discard(self) -> None:
+        shutil.rmtree(self.path, ignore_errors=True)
+
+    def __enter__(self) -> "Staging":
+        return self
+
+    def __exit__(self, exc_type, exc, tb) -> None:
+        if exc_type is not None:
+            self.discard()
+
+
+def stale_staging(out_root: Path, label: str) -> list[tuple[Path, str]]:
+    """Staging folders in ``out_root`` left by releases that no longer run: those whose process id
+    is not alive, and folders of ``label`` from before staging folders named their process."""
+    out = []
+    for p in sorted(out_root.glob(f".*{STAGING_MARK}*")):
+        if not p.is_dir():
+            continue
+        owner = p.name.rsplit(STAGING_MARK, 1)[1].split("-", 1)[0]
+        if owner.isdigit():
+            if not _process_alive(int(owner)):
+                out.append((p, f"process {owner} no longer runs"))
+        elif p.name.startswith(f".{label}{STAGING_MARK}"):
+            out.append((p, "an earlier release of the same version"))
+    return out
+
+
+def _process_alive(pid: int) -> bool:
+    if pid == os.getpid():
+        return True
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:  # exists, another user's
+        return True
+    return True
+
+
+def publish(files: dict[str, bytes], out_root: Path, label: str, say=None) -> Path:
+    """Write ``files`` into ``out_root/label`` all-or-nothing (stage, then one rename)."""
+    with Staging(Path(out_root), label, say) as stage:
+        for rel, content in files.items():
+            stage.write(rel, content)
+        return stage.publish()

@@ -8,8 +8,8 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from ..errors import CompactgenError, InputError, ReleaseError
-from .bundle import (INTEGRITY_ONLY, MANIFEST, SEAL, Bundle, ReleaseRefused, bundle_digest, check_bundle,
-                     created_stamp, load_bundle, manifest_text, publish, release_manifest, seal, sha256)
+from .bundle import (INTEGRITY_ONLY, MANIFEST, SEAL, Bundle, ReleaseRefused, Staging, bundle_digest, check_bundle,
+                     created_stamp, load_bundle, manifest_text, release_manifest, seal, sha256)
 from .compare import Comparison, compare_bundles
 from .semver import parse_version
 
@@ -70,53 +70,62 @@ def make_release(card_path: str | Path, version: str, out_root: str | Path, agai
     t0 = time.perf_counter()
     reused = suite is not None
     ir = card.ir()
-    if suite is None:
-        say(f"release {card.name} {ver}: running the bench suite in ngspice and VACASK")
-        benches = card.device.benches(ir, card.values)
-        suite = run_suite(ir, benches, progress=progress_printer() if progress else None)
-    elif suite.model != ir.name:
-        raise ValueError(f"suite result is for {suite.model}, not {ir.name}")
-    if not suite.passed:
-        failed = [f"{r.bench}: {r.metric}" for r in suite.rows if not r.passed]
-        if progress:
-            print(suite.table())
-        raise ReleaseRefused(f"{card_path}: {len(failed)} of {len(suite.rows)} bench figures fail "
-                             f"({', '.join(failed[:4])}{', ...' if len(failed) > 4 else ''}); a model that fails "
-                             f"its benches is not released. See them with `compactgen verify {card_path} "
-                             "--report verify.html`")
-    ran = "result of the verification just run" if reused else f"{time.perf_counter() - t0:.1f} s"
-    say(f"release {card.name} {ver}: bench suite passed ({len(suite.rows)} figures, {ran}); "
-        "writing curves and reports")
-    text = {k: v for k, v in build_files(card).items() if k != MANIFEST}
-    text[f"{card.name}.card.toml"] = card.text
-    for run in suite.runs:
-        meta = {"model": f"{card.name} {ver}", "bench": run.bench.name, "title": run.bench.title,
-                "sources": ", ".join(["reference"] + sorted(s for s in run.traces if s != "reference")),
-                "grid": "transient, uniform output step" if run.bench.analysis == "tran" else "DC sweep points"}
-        text[f"curves/{run.bench.name}.csv"] = write_csv(curve_table(ir, run, meta))
-    manifest = release_manifest(card, ir, ver, suite, eval_figures(ir))
-    files = {k: v.encode("utf-8") for k, v in text.items()}
-    comparison = None
-    refused = out_root / f"{label}.refused.html"
-    if prev is not None:
-        comparison = compare_bundles(prev, Bundle(manifest, files=files), accepted=accept)
-        specs = {b: r["plot"] for b, r in manifest["benches"].items()}
-        if progress:
-            print(summary_text(comparison))
-        if not comparison.passed:
-            write_files({refused.name: html(comparison, specs)}, out_root)
-            raise ReleaseRefused(
-                f"release {label} refused: {comparison.verdict()}. Report: {refused}. If the changes are "
-                f"intended, run again with --accept \"why\" (the reason goes into the manifest and the report)")
-        files["changes.md"] = markdown(comparison).encode("utf-8")
-        files["changes.html"] = html(comparison, specs).encode("utf-8")
-        manifest["comparison"] = dict(comparison.record(), against_manifest_sha256=prev.manifest.get(SEAL),
-                                      against_digest=bundle_digest(prev.root))
-    files["verify.html"] = verify_html(suite, f"{card.name} {ver}: verification").encode("utf-8")
-    manifest["files"] = {k: sha256(v) for k, v in sorted(files.items())}
-    manifest["created"] = created_stamp()
-    files[MANIFEST] = manifest_text(seal(manifest)).encode("utf-8")
-    path = publish(files, out_root, label)
+    # the bundle grows in a hidden staging folder, removed if the release stops for any reason
+    with Staging(out_root, label, say) as stage:
+        files: dict[str, bytes] = {}
+
+        def add(rel: str, content: str | bytes) -> None:
+            files[rel] = content.encode("utf-8") if isinstance(content, str) else content
+            stage.write(rel, files[rel])
+
+        for rel, content in build_files(card).items():
+            if rel != MANIFEST:
+                add(rel, content)
+        add(f"{card.name}.card.toml", card.text)
+        if suite is None:
+            say(f"release {card.name} {ver}: running the bench suite in ngspice and VACASK")
+            benches = card.device.benches(ir, card.values)
+            suite = run_suite(ir, benches, progress=progress_printer() if progress else None)
+        elif suite.model != ir.name:
+            raise ValueError(f"suite result is for {suite.model}, not {ir.name}")
+        if not suite.passed:
+            failed = [f"{r.bench}: {r.metric}" for r in suite.rows if not r.passed]
+            if progress:
+                print(suite.table())
+            raise ReleaseRefused(f"{card_path}: {len(failed)} of {len(suite.rows)} bench figures fail "
+                                 f"({', '.join(failed[:4])}{', ...' if len(failed) > 4 else ''}); a model that "
+                                 f"fails its benches is not released. See them with `compactgen verify {card_path} "
+                                 "--report verify.html`")
+        ran = "result of the verification just run" if reused else f"{time.perf_counter() - t0:.1f} s"
+        say(f"release {card.name} {ver}: bench suite passed ({len(suite.rows)} figures, {ran}); "
+            "writing curves and reports")
+        for run in suite.runs:
+            meta = {"model": f"{card.name} {ver}", "bench": run.bench.name, "title": run.bench.title,
+                    "sources": ", ".join(["reference"] + sorted(s for s in run.traces if s != "reference")),
+                    "grid": "transient, uniform output step" if run.bench.analysis == "tran" else "DC sweep points"}
+            add(f"curves/{run.bench.name}.csv", write_csv(curve_table(ir, run, meta)))
+        manifest = release_manifest(card, ir, ver, suite, eval_figures(ir))
+        comparison = None
+        refused = out_root / f"{label}.refused.html"
+        if prev is not None:
+            comparison = compare_bundles(prev, Bundle(manifest, files=files), accepted=accept)
+            specs = {b: r["plot"] for b, r in manifest["benches"].items()}
+            if progress:
+                print(summary_text(comparison))
+            if not comparison.passed:
+                write_files({refused.name: html(comparison, specs)}, out_root)
+                raise ReleaseRefused(
+                    f"release {label} refused: {comparison.verdict()}. Report: {refused}. If the changes are "
+                    f"intended, run again with --accept \"why\" (the reason goes into the manifest and the report)")
+            add("changes.md", markdown(comparison))
+            add("changes.html", html(comparison, specs))
+            manifest["comparison"] = dict(comparison.record(), against_manifest_sha256=prev.manifest.get(SEAL),
+                                          against_digest=bundle_digest(prev.root))
+        add("verify.html", verify_html(suite, f"{card.name} {ver}: verification"))
+        manifest["files"] = {k: sha256(v) for k, v in sorted(files.items())}
+        manifest["created"] = created_stamp()
+        add(MANIFEST, manifest_text(seal(manifest)))
+        path = stage.publish()
     refused.unlink(missing_ok=True)
     digest = sha256(files[MANIFEST])
     say(f"released {path} ({len(files)} files, {time.perf_counter() - t0:.1f} s); bundle digest {digest} "
