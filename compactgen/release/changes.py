@@ -199,11 +199,14 @@ def sections(c: Comparison) -> list[Section]:
     s.bad = [not r.ok for r in c.figures]
     out.append(s)
     s = Section("Bench figures")
-    s.text.append("Each bench figure is compared for the reference solution and each simulator; 'change / band' "
-                  "is the largest of them (its source in brackets). 'old' and 'new' are the reference values.")
+    several = len(c.sources) > 1
+    s.text.append(f"Each bench figure is compared for {_sources_text(c)}; 'change / band' is "
+                  + ("the largest of them (its source in brackets)" if several else "its change over the band")
+                  + ". 'old' and 'new' are the reference values.")
     s.headers = ["bench", "figure", "old", "new", "change", "band", "change / band", "verdict"]
     s.rows = [[r.group, r.name, value_text(r.old, r.unit), value_text(r.new, r.unit), change_text(r),
-               r.band.text(r.unit), ratio_text(r.error) + (f" ({r.source})" if r.source and r.error >= NOISE else ""),
+               r.band.text(r.unit),
+               ratio_text(r.error) + (f" ({r.source})" if several and r.source and r.error >= NOISE else ""),
                r.status] for r in c.metrics]
     s.bad = [not r.ok for r in c.metrics]
     s.after = [f"{b}: {n}" for b, n in c.stimulus_changes.items()]
@@ -214,7 +217,7 @@ def sections(c: Comparison) -> list[Section]:
     out.append(s)
     s = Section("Curves", curves=True)
     s.text.append("Each bench's curve file compared point by point on the old release's grid over the common "
-                  "range, for the reference and each simulator: every terminal current, the states the bench "
+                  f"range, for {_sources_text(c)}: every terminal current, the states the bench "
                   "observes (plots), and the stimulus voltages when the stimulus is unchanged. The worst column is "
                   "shown. States a bench does not observe (e.g. the in-plane components of a precessing "
                   "magnetisation, whose phase any small change shifts) are kept in the files but not compared. "
@@ -239,6 +242,11 @@ def sections(c: Comparison) -> list[Section]:
     s.bad = [False] * len(s.rows)
     out.append(s)
     return out
+
+
+def _sources_text(c: Comparison) -> str:
+    sims = [x for x in c.sources if x != "reference"]
+    return "the reference solution" + (f" and {', '.join(sims)}" if sims else " only")
 
 
 def _cell(text: str) -> str:

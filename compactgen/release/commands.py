@@ -133,8 +133,8 @@ def make_release(card_path: str | Path, version: str, out_root: str | Path, agai
     return ReleaseOutcome(path, manifest, comparison, suite, digest)
 
 
-def compare_dirs(old: str | Path, new: str | Path, accept: str | None = None) -> Comparison:
-    return compare_bundles(load_bundle(old), load_bundle(new), accepted=accept)
+def compare_dirs(old: str | Path, new: str | Path, accept: str | None = None, simulators=None) -> Comparison:
+    return compare_bundles(load_bundle(old), load_bundle(new), accepted=accept, simulators=simulators)
 
 
 # ---- command line ------------------------------------------------------------------------------

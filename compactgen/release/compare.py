@@ -223,6 +223,7 @@ class Comparison:
     curves: list[CurveRow]
     stimulus_changes: dict[str, str]
     accepted: str | None = None
+    sources: list[str] = field(default_factory=lambda: ["reference"])  # reference and simulators compared
 
     @property
     def breaks(self) -> list[InterfaceChange]:
@@ -453,9 +454,16 @@ def _status(err: float) -> str:
     return "same" if err == 0 else ("within band" if err <= 1.0 else "OUTSIDE BAND")
 
 
-def compare_metrics(old: dict, new: dict, stimulus: dict[str, str]) -> list[FigureRow]:
+def compared_sources(old: dict, new: dict, simulators=None) -> list[str]:
+    """The reference, then the simulators both manifests hold (only those in ``simulators``
+    unless it is None)."""
+    common = [s for s in old.get("simulators", []) if s in new.get("simulators", [])]
+    return ["reference"] + [s for s in common if simulators is None or s in simulators]
+
+
+def compare_metrics(old: dict, new: dict, stimulus: dict[str, str], simulators=None) -> list[FigureRow]:
     bo, bn = old["benches"], new["benches"]
-    sources = ["reference"] + [s for s in old.get("simulators", []) if s in new.get("simulators", [])]
+    sources = compared_sources(old, new, simulators)
     rows = []
     for bench in list(bo) + [b for b in bn if b not in bo]:
         mo = bo.get(bench, {}).get("metrics", {})
@@ -481,7 +489,7 @@ def compare_metrics(old: dict, new: dict, stimulus: dict[str, str]) -> list[Figu
 
 
 def compare_curve_tables(bench: str, old: CurveTable, new: CurveTable, stimulus_note: str = "",
-                         observed: set[str] | None = None) -> CurveRow:
+                         observed: set[str] | None = None, sources: list[str] | None = None) -> CurveRow:
     """The columns of ``old`` against ``new`` interpolated onto the old grid over the common range.
 
     Compared: every terminal current; the states in ``observed`` (those the bench plots; all when
@@ -509,6 +517,8 @@ def compare_curve_tables(bench: str, old: CurveTable, new: CurveTable, stimulus_
     missing = [c for c in old.columns if c not in new.columns]
     for col, (unit, yo_all) in old.columns.items():
         if col in missing or not _judged(col, stimulus_note, observed):
+            continue
+        if sources is not None and ":" in col and col.split(":", 1)[0] not in sources:
             continue
         yo = yo_all[mask]
         yn = np.interp(grid, new.x, new.values(col))
@@ -546,7 +556,10 @@ def observed_states(plot: list[str]) -> set[str]:
     return {p.split(":", 1)[1] for p in plot if p.startswith("state:")}
 
 
-def compare_bundles(old: Bundle, new: Bundle, accepted: str | None = None) -> Comparison:
+def compare_bundles(old: Bundle, new: Bundle, accepted: str | None = None, simulators=None) -> Comparison:
+    """The comparison of two bundles.  ``simulators`` limits the sources compared besides the
+    reference (None: every simulator both bundles hold; (): the reference solutions only, which
+    are deterministic, unlike the last digits of simulator results)."""
     mo, mn = old.manifest, new.manifest
     for m, b in ((mo, old), (mn, new)):
         for key in ("parameters", "interface", "figures", "benches"):
@@ -559,6 +572,7 @@ def compare_bundles(old: Bundle, new: Bundle, accepted: str | None = None) -> Co
             if note:
                 stimulus[bench] = note
     params, n_params = compare_parameters(mo, mn)
+    sources = compared_sources(mo, mn, simulators)
     curves = []
     for bench in list(mo["benches"]) + [b for b in mn["benches"] if b not in mo["benches"]]:
         if bench not in mn["benches"]:
@@ -567,9 +581,9 @@ def compare_bundles(old: Bundle, new: Bundle, accepted: str | None = None) -> Co
             curves.append(CurveRow(bench, "new", note="bench added"))
         else:
             curves.append(compare_curve_tables(bench, old.curves(bench), new.curves(bench), stimulus.get(bench, ""),
-                                               observed_states(mn["benches"][bench].get("plot", []))))
+                                               observed_states(mn["benches"][bench].get("plot", [])), sources))
     return Comparison(
         old=old.label, new=new.label, old_version=mo["version"], new_version=mn["version"], kind=mn["kind"],
         params=params, n_params=n_params, interface=compare_interface(mo["interface"], mn["interface"]),
-        figures=compare_figures(mo, mn), metrics=compare_metrics(mo, mn, stimulus), curves=curves,
-        stimulus_changes=stimulus, accepted=accepted or None)
+        figures=compare_figures(mo, mn), metrics=compare_metrics(mo, mn, stimulus, simulators), curves=curves,
+        stimulus_changes=stimulus, accepted=accepted or None, sources=sources)
