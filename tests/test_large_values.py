@@ -9,7 +9,6 @@ import pytest
 
 from compactgen import bignum
 from compactgen.analytic import retention_time
-from compactgen.build import build_files
 from compactgen.card import starter_card
 from compactgen.cli import main
 from compactgen.release.changes import change_text, value_text
