@@ -4,7 +4,9 @@ and a manifest with a sha256 of every file.
 A bundle is written into a hidden staging folder beside its final place and renamed into
 place only when every file is written, so an interrupted release leaves no bundle; an
 existing version is never overwritten.  The manifest seals itself: ``manifest_sha256`` is the
-sha256 of the manifest written without that key, so an edited manifest is caught too.
+sha256 of the manifest written without that key, so an edited manifest is caught too.  That
+proves integrity against accidental change only (whoever can write a bundle can re-seal it);
+the bundle digest (sha256 of manifest.json), recorded outside the bundle, covers the rest.
 """
 from __future__ import annotations
 
@@ -396,10 +398,3 @@ def _process_alive(pid: int) -> bool:
         return True
     return True
 
-
-def publish(files: dict[str, bytes], out_root: Path, label: str, say=None) -> Path:
-    """Write ``files`` into ``out_root/label`` all-or-nothing (stage, then one rename)."""
-    with Staging(Path(out_root), label, say) as stage:
-        for rel, content in files.items():
-            stage.write(rel, content)
-        return stage.publish()
