@@ -13,6 +13,7 @@ import numpy as np
 import sympy as sp
 from scipy.optimize import brentq
 
+from . import bignum
 from .physics import switching, thermal
 
 _i, _th, _t, _tau, _dl, _n, _r = sp.symbols("i theta t tau delta n r", positive=True)
@@ -65,8 +66,9 @@ def activated_probability(delta: float, ratio: float, t, tau0: float = 1e-9, exp
 
 
 def retention_time(delta: float, tau0: float = 1e-9) -> float:
-    """Neel-Brown retention tau0 exp(Delta) [s] (conventional tau0 = 1 ns)."""
-    return float(tau0 * math.exp(delta))
+    """Neel-Brown retention tau0 exp(Delta) [s] (conventional tau0 = 1 ns); beyond the double
+    range a bignum.Overflow (inf that keeps its log10)."""
+    return bignum.exp(delta, tau0)
 
 
 def brown_dwell_time(alpha: float, hk_eff: float, delta: float) -> float:

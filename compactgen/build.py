@@ -16,9 +16,9 @@ from pathlib import Path
 
 import sympy as sp
 
-from . import __version__, render
+from . import __version__, bignum, render
 from .card import Card
-from .errors import CompactgenError
+from .errors import InputError
 from .ir import ModelIR
 from .printing.base import format_number
 from .reference import figures as eval_figures
@@ -57,8 +57,9 @@ def datasheet(card: Card, ir: ModelIR, figs: dict[str, float], ngspice_ctx: dict
     prm = []
     for s in ir.params:
         stderr = card.uncertainty.get(s.name)
+        desc = s.desc if not s.computed or s.name in card.given else f"{s.desc}; computed {s.computed}"
         prm.append(dict(name=s.name, value=s.card_text(), range=s.range_text(s.card_unit), kind=s.kind,
-                        desc=_cell(s.desc), source=_cell(s.source), stderr=s.card_text(stderr) if stderr else ""))
+                        desc=_cell(desc), source=_cell(s.source), stderr=s.card_text(stderr) if stderr else ""))
     # simulator settings: the step cap from the card's own precession period
     if "f_fmr" in figs and figs["f_fmr"] > 0:
         period = 1.0 / figs["f_fmr"]
@@ -107,10 +108,19 @@ def _cell(text: str) -> str:
 
 
 def _fmt(x: float, unit: str) -> str:
+    u = "" if unit in ("1", "") else f" {unit}"
+    if bignum.is_overflow(x):
+        return f"{bignum.sci(x)}{u}"
     if not math.isfinite(x):
         return str(x)
-    u = "" if unit in ("1", "") else f" {unit}"
     return f"{x:.6g}{u}"
+
+
+def _manifest_figure(x: float):
+    """A key figure in manifest.json: a number, or {"log10": ...} beyond the double range."""
+    if bignum.is_overflow(x):
+        return {"log10": float(f"{x.log10:.12g}")}
+    return float(f"{x:.12g}") if math.isfinite(x) else None
 
 
 def build_files(card: Card) -> dict[str, str]:
@@ -130,10 +140,10 @@ def build_files(card: Card) -> dict[str, str]:
         "card_sha256": card.sha256(),
         "model_digest": ir.digest(),
         "parameter_digest": render.param_digest(ir),
-        "figures": {k: float(f"{v:.12g}") for k, v in figs.items()},
+        "figures": {k: _manifest_figure(v) for k, v in figs.items()},
         "files": {k: hashlib.sha256(v.encode()).hexdigest() for k, v in sorted(files.items())},
     }
-    files["manifest.json"] = json.dumps(manifest, indent=2, sort_keys=True) + "\n"
+    files["manifest.json"] = json.dumps(manifest, indent=2, sort_keys=True, allow_nan=False) + "\n"
     return files
 
 
@@ -144,7 +154,7 @@ def write_files(files: dict[str, str | bytes], out_dir: str | Path) -> list[Path
     out = Path(out_dir)
     existed = out.exists()
     if existed and not out.is_dir():
-        raise CompactgenError(f"{out}: exists and is not a folder")
+        raise InputError(f"{out}: exists and is not a folder")
     out.mkdir(parents=True, exist_ok=True)
     stage = Path(tempfile.mkdtemp(prefix=".compactgen-", dir=out))
     written = []

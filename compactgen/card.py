@@ -10,6 +10,7 @@ Every error names the file, the key, the value with its unit and what was expect
 """
 from __future__ import annotations
 
+import codecs
 import difflib
 import hashlib
 import re
@@ -18,8 +19,10 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from .devices import get_kind, kinds
+from .devices.common import shared_defaults
 from .errors import CardError, InputError, RangeError
 from .ir import ModelIR
+from .params import RESERVED, reserved_reason
 from .units import to_si
 
 _NAME = re.compile(r"^[a-z][a-z0-9_]{0,40}$")
@@ -60,8 +63,37 @@ def load_card(path: str | Path) -> Card:
     path = Path(path)
     if not path.is_file():
         raise CardError(f"{path}: no such card file")
-    text = path.read_text(encoding="utf-8")
-    return parse_card(text, str(path), path)
+    return parse_card(read_card_text(path), str(path), path)
+
+
+_BOMS = ((codecs.BOM_UTF32_LE, None, "UTF-32"), (codecs.BOM_UTF32_BE, None, "UTF-32"),
+         (codecs.BOM_UTF8, "utf-8-sig", "UTF-8"), (codecs.BOM_UTF16_LE, "utf-16", "UTF-16"),
+         (codecs.BOM_UTF16_BE, "utf-16", "UTF-16"))  # UTF-32 first: its LE mark starts like UTF-16's
+
+
+def read_card_text(path: Path) -> str:
+    """A card file's text: UTF-8 (with or without a byte-order mark) or UTF-16 with a byte-order
+    mark; anything else is a CardError naming the file and the encoding problem."""
+    data = path.read_bytes()
+    for bom, codec, label in _BOMS:
+        if data.startswith(bom):
+            if codec is None:
+                raise CardError(f"{path}: {label} text (byte-order mark found); save the card as UTF-8")
+            try:
+                return data.decode(codec)
+            except UnicodeDecodeError as exc:
+                raise CardError(f"{path}: starts with a {label} byte-order mark but byte {exc.start} cannot be "
+                                f"decoded as {label}; save the card as UTF-8") from None
+    if b"\x00" in data:
+        raise CardError(f"{path}: contains NUL bytes, as UTF-16 or UTF-32 text without a byte-order mark does; "
+                        "save the card as UTF-8")
+    try:
+        return data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        line = data.count(b"\n", 0, exc.start) + 1
+        column = exc.start - (data.rfind(b"\n", 0, exc.start) + 1) + 1
+        raise CardError(f"{path}: line {line}, column {column}: byte 0x{data[exc.start]:02x} is not UTF-8 (a card "
+                        "must be UTF-8, or UTF-16 with a byte-order mark; e.g. Latin-1 text needs converting)") from None
 
 
 def parse_card(text: str, where: str = "<card>", path: Path | None = None) -> Card:
@@ -82,6 +114,9 @@ def parse_card(text: str, where: str = "<card>", path: Path | None = None) -> Ca
     if not isinstance(name, str) or not _NAME.match(name):
         raise CardError(f"{where}: [device] name = {name!r} must be lower-case letters, digits and _ , "
                         "starting with a letter (it becomes the Verilog-A module and .subckt name)")
+    if name in RESERVED:
+        raise CardError(f"{where}: [device] name = {name!r} is reserved: {reserved_reason(name)}; choose another "
+                        "model name (it becomes the Verilog-A module, .subckt and VACASK model name)")
     options = {o.name: o.default for o in kind.options}
     given_opts = doc.get("model", {})
     _no_unknown(given_opts, tuple(options), where, "key in [model]")
@@ -112,7 +147,7 @@ def parse_card(text: str, where: str = "<card>", path: Path | None = None) -> Ca
                              f"{spec.range_text(spec.card_unit)} ({spec.desc})") from None
         values[spec.name] = v
     given = frozenset(params)
-    values = kind.derive_defaults(values, options, given)
+    values = shared_defaults(table, kind.derive_defaults(values, options, given), given)
     uncertainty = {}
     for k, v in doc.get("uncertainty", {}).items():
         if k not in table:

@@ -2,13 +2,16 @@
 from __future__ import annotations
 
 import argparse
+import contextlib
 import os
 import shutil
+import signal
 import sys
+import threading
 from pathlib import Path
 
 from . import __version__
-from .errors import CompactgenError, VerificationFailed
+from .errors import CompactgenError, InputError, Terminated, VerificationFailed
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 
@@ -46,13 +49,50 @@ def main(argv: list[str] | None = None) -> int:
 
     args = parser.parse_args(argv)
     try:
-        return int(args.func(args) or 0)
+        with stop_on_signals():
+            return int(args.func(args) or 0)
     except CompactgenError as exc:
         print(f"compactgen {args.command}: error: {exc}", file=sys.stderr)
         return exc.exit_status
     except KeyboardInterrupt:
-        print("compactgen: interrupted", file=sys.stderr)
-        return 130
+        print(f"compactgen {args.command}: interrupted; partial output removed", file=sys.stderr)
+        return 128 + signal.SIGINT
+    except Terminated as exc:
+        print(f"compactgen {args.command}: terminated by {signal.Signals(exc.signum).name}; partial output removed",
+              file=sys.stderr)
+        return 128 + exc.signum
+
+
+@contextlib.contextmanager
+def stop_on_signals():
+    """While a command runs: SIGTERM and SIGHUP raise Terminated and SIGINT KeyboardInterrupt in
+    the main thread, after the simulator processes started so far are killed (so that threads
+    waiting on them return at once).  Every cleanup on the way out then runs: staging folders
+    and temporary files are removed.  Only in the main thread (signal handlers live there)."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    from .sim.tools import resume_children, stop_children
+
+    stopping = []
+
+    def handler(signum, frame):
+        if stopping:  # a second signal must not interrupt the cleanup the first one started
+            return
+        stopping.append(signum)
+        stop_children()
+        if signum == signal.SIGINT:
+            raise KeyboardInterrupt
+        raise Terminated(signum)
+
+    wanted = [signal.SIGTERM, signal.SIGINT] + ([signal.SIGHUP] if hasattr(signal, "SIGHUP") else [])
+    previous = {sig: signal.signal(sig, handler) for sig in wanted}
+    try:
+        yield
+    finally:
+        for sig, old in previous.items():
+            signal.signal(sig, old)
+        resume_children()
 
 
 def _extensions():
@@ -81,7 +121,7 @@ def cmd_init(args) -> int:
 
     out = Path(args.output)
     if out.exists():
-        raise CompactgenError(f"{out}: exists already; choose another name (init never overwrites)")
+        raise InputError(f"{out}: exists already; choose another name (init never overwrites)")
     text = starter_card(args.kind, args.name)
     parse_card(text, str(out))  # the starter must itself be valid
     out.parent.mkdir(parents=True, exist_ok=True)
@@ -111,21 +151,21 @@ def load_target(target: str):
     if path.is_dir():
         cards = sorted(path.glob("*.card.toml"))
         if len(cards) != 1:
-            raise CompactgenError(f"{path}: expected one NAME.card.toml written by `compactgen build`, "
+            raise InputError(f"{path}: expected one NAME.card.toml written by `compactgen build`, "
                                   f"found {len(cards)}")
         card = load_card(cards[0])
         fresh = build_files(card)
         for name in (f"{card.name}.va", f"{card.name}.lib"):
             f = path / name
             if not f.is_file() or f.read_text() != fresh[name]:
-                raise CompactgenError(f"{f}: missing, edited by hand, or built by another compactgen version; "
+                raise InputError(f"{f}: missing, edited by hand, or built by another compactgen version; "
                                       f"rebuild with `compactgen build {cards[0]} -o {path}`")
         return card
     return load_card(path)
 
 
 def cmd_verify(args) -> int:
-    from .verify import progress_printer, run_suite
+    from .verify import SIMULATORS
 
     from .verify import parse_simulators
 

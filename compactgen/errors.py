@@ -63,5 +63,14 @@ class ReleaseError(CompactgenError):
     exit_status = 2
 
 
+class Terminated(BaseException):
+    """The process was asked to stop (SIGTERM, SIGHUP): raised in the main thread, like
+    KeyboardInterrupt for SIGINT, so that every cleanup on the way out runs."""
+
+    def __init__(self, signum: int):
+        super().__init__(signum)
+        self.signum = signum
+
+
 class OutOfCalibratedRange(UserWarning):
     """Warning: the model is driven outside the range it was calibrated over."""

@@ -92,6 +92,28 @@ class Figure:
     condition: str = ""
 
 
+@dataclass(frozen=True)
+class Constraint:
+    """A parameter-only expression that must be positive, and how to say so when it is not.
+
+    ``message`` states the allowed relation in card terms.  In it, ``{name}`` of a parameter
+    prints "name = value card-unit"; ``{value}`` prints the expression's value, and ``{key}`` of
+    ``shown`` the value of that expression (all in ``unit`` [SI], written in ``card_unit``).
+    The card parameters the expression depends on that the message does not name are listed
+    after it."""
+
+    expr: sp.Expr
+    message: str
+    unit: str = "1"
+    card_unit: str = ""
+    shown: tuple[tuple[str, sp.Expr], ...] = ()
+
+    @classmethod
+    def of(cls, item) -> "Constraint":
+        """A Constraint from itself or an (expr, message) pair."""
+        return item if isinstance(item, cls) else cls(*item)
+
+
 @dataclass
 class ModelIR:
     name: str
@@ -110,8 +132,8 @@ class ModelIR:
     outputs: list[Output] = field(default_factory=list)
     figures: list[Figure] = field(default_factory=list)
     conventions: list[str] = field(default_factory=list)
-    #: parameter-only expressions that must be positive, with the message when they are not
-    constraints: list[tuple[sp.Expr, str]] = field(default_factory=list)
+    #: parameter-only expressions that must be positive (Constraint, or (expr, message) pairs)
+    constraints: list[Constraint | tuple[sp.Expr, str]] = field(default_factory=list)
     #: limit parameter name -> local symbol whose magnitude it bounds (calibrated range)
     limits: dict[str, sp.Symbol] = field(default_factory=dict)
     #: locals several equations share -> parameter-only scale; ngspice computes each once on an

@@ -16,15 +16,84 @@ import sympy as sp
 
 from .errors import RangeError
 
-#: words a parameter may not be called because a target language or simulator owns them
-RESERVED = frozenset(
-    """
-    begin end module endmodule analog parameter real integer from exclude inf if else for
-    while case default function ln log exp sqrt abs min max pow time temper temp tnom_c
-    m pi e area mult scale dtemp_c ddt idt ddx branch electrical inout input output
-    vt limexp string genvar localparam table abstime include define
-    """.split()
-)
+def _words(text: str) -> frozenset[str]:
+    return frozenset(text.split())
+
+
+#: Names a model or a parameter may not take because a target language, a simulator or
+#: compactgen's own generated text owns them.  Model and parameter names are identical in the
+#: card, Verilog-A, ngspice and VACASK, so one list serves every target.  Group -> words; the
+#: group's key is the reason given when a name is refused.  All lower case: the names are.
+RESERVED_GROUPS: dict[str, frozenset[str]] = {
+    # IEEE/Accellera Verilog-AMS LRM 2.4 keyword list, Verilog-2005 keywords included (from memory)
+    "a Verilog-A/Verilog-AMS keyword": _words("""
+        above abs absdelay absdelta abstol access acos acosh ac_stim aliasparam always analog analysis and
+        asin asinh assert assign atan atan2 atanh automatic begin branch buf bufif0 bufif1 case casex casez
+        ceil cell cmos config connect connectmodule connectrules continuous cos cosh cross ddt ddt_nature ddx
+        deassign default defparam design disable discipline discrete domain driver_update edge else end
+        endcase endconfig endconnectrules enddiscipline endfunction endgenerate endmodule endnature
+        endparamset endprimitive endspecify endtable endtask event exclude exp final_step flicker_noise floor
+        flow for force forever fork from function generate genvar ground highz0 highz1 hypot idt idtmod
+        idt_nature if ifnone incdir include inf initial initial_step inout input instance integer join
+        laplace_nd laplace_np laplace_zd laplace_zp large last_crossing liblist library limexp ln
+        localparam log macromodule max medium merged min module nand nature negedge net_resolution nmos
+        noise_table noise_table_log nor noshowcancelled not notif0 notif1 or output parameter paramset pmos
+        posedge potential pow primitive pull0 pull1 pulldown pullup pulsestyle_ondetect pulsestyle_onevent
+        rcmos real realtime reg release repeat resolveto rnmos rpmos rtran rtranif0 rtranif1 scalared
+        showcancelled signed sin sinh slew small specify specparam split sqrt string strong0 strong1 supply0
+        supply1 table tan tanh task time timer tran tranif0 tranif1 transition tri tri0 tri1 triand trior
+        trireg units unsigned use uwire vectored wait wand weak0 weak1 while white_noise wire wor wreal xnor
+        xor zi_nd zi_np zi_zd zi_zp
+        """),
+    # natures and disciplines declared by the standard header disciplines.vams, which every
+    # generated module includes (Verilog-AMS LRM 2.4 annex, from memory)
+    "a nature or discipline of disciplines.vams": _words("""
+        logic ddiscrete electrical voltage current magnetic magnetomotive_force flux thermal temperature
+        power kinematic kinematic_v position velocity acceleration impulse rotational rotational_omega angle
+        angular_velocity angular_acceleration angular_force
+        """),
+    # ngspice manual: dot-commands of a netlist and the X-line keyword "params:" (from memory)
+    "an ngspice/SPICE netlist keyword or dot-command": _words("""
+        ac alias alter altermod appendmodel control csparam data dc disto else elseif end endc enddata endif
+        endl ends four func global ic if include lib meas measure model net noise nodeset op option options
+        param params plot print probe pss pz save sens sp subckt temp tf title tran width
+        """),
+    # ngspice manual: model types of .model lines (from memory)
+    "an ngspice model type": _words("""
+        r c l d sw csw npn pnp njf pjf nmos pmos nmf pmf urc ltra txl cpl vdmos
+        """),
+    # ngspice manual: functions and built-in values of B-source and .param expressions (from memory)
+    "an ngspice expression function or built-in value": _words("""
+        abs acos acosh asin asinh atan atanh cos cosh exp ln log log10 sin sinh sqrt tan tanh u u2 uramp
+        ceil floor nint int sgn min max pow pwr pwl ternary_fcn agauss gauss aunif unif limit i v time
+        temper hertz pi e boltzmann planck echarge kelvin
+        """),
+    # VACASK manual: netlist keywords, analyses and built-in devices (from memory)
+    "a VACASK netlist keyword, analysis or built-in device": _words("""
+        load include section endsection model subckt ends parameters ground global control endc options
+        analysis sweep save print abort var postprocess embed elaborate op dc ac tran noise hb dcinc dcxf
+        acxf vsource isource resistor capacitor inductor vcvs vccs ccvs cccs mutual
+        """),
+    # Verilog compiler directives and system functions without their ` or $ (from memory)
+    "a Verilog-A compiler directive or system function name": _words("define undef ifdef ifndef elsif abstime"),
+    # instance parameters simulators add to every instance (SPICE multiplicity and scaling)
+    "an instance parameter simulators add (m, mult, area, scale)": _words("m mult area scale"),
+    # compactgen's generated text: VACASK deck model names (templates/vacask/*.sim.j2, ensemble.py,
+    # corners.py), .lib section names (render.py), and names the model text uses for itself
+    # (templates/verilog_a/model.va.j2, templates/ngspice/model.lib.j2)
+    "a name compactgen's generated decks or libraries use": _words("""
+        dut_m vsrc isrc m_tt m_ss m_ff tt ss ff mc mc_global mc_local xdut clk temp_c tnom_c dtemp_c vt
+        """),
+}
+#: every reserved word (model and parameter names)
+RESERVED = frozenset().union(*RESERVED_GROUPS.values())
+
+
+def reserved_reason(name: str) -> str:
+    """Why ``name`` is reserved ("" if it is not): the first group that owns it."""
+    return next((why for why, words in RESERVED_GROUPS.items() if name in words), "")
+
+
 _NAME = re.compile(r"^[a-z][a-z0-9_]{0,30}$")
 
 

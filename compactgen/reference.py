@@ -6,6 +6,7 @@ an equation reaches it through exactly the same sympy object the printers print.
 from __future__ import annotations
 
 import math
+import re
 import warnings
 from dataclasses import dataclass, field
 
@@ -13,8 +14,9 @@ import numpy as np
 import sympy as sp
 from scipy.integrate import solve_ivp
 
+from . import bignum
 from .errors import OutOfCalibratedRange, RangeError
-from .ir import ModelIR
+from .ir import Constraint, ModelIR
 
 DEFAULT_TEMPERATURE = 300.15  # [K], 27 degC: the default circuit temperature of ngspice and VACASK
 
@@ -32,16 +34,15 @@ def numeric_parameters(ir: ModelIR, overrides: dict[str, float] | None = None) -
         spec.check(value, where=f"parameter {spec.name}")
         num[spec.symbol] = float(value)
     tdep = ir.temperature_dependent()
-    pending = list(ir.constraints)
+    pending = [Constraint.of(c) for c in ir.constraints]
 
     def check_constraints():
         for item in list(pending):
-            expr, message = item
-            if expr.free_symbols <= set(num):
+            if item.expr.free_symbols <= set(num):
                 pending.remove(item)
-                value = _evaluate(expr, num, "constraint")
+                value = _evaluate(item.expr, num, "constraint")
                 if not value > 0:
-                    raise RangeError(f"{message} (got {value:.6g})")
+                    raise RangeError(constraint_message(ir, item, num, value))
 
     for sym, expr in ir.derived:
         check_constraints()
@@ -52,12 +53,84 @@ def numeric_parameters(ir: ModelIR, overrides: dict[str, float] | None = None) -
     return num
 
 
-def _evaluate(expr: sp.Expr, num: dict, what: str) -> float:
+def constraint_message(ir: ModelIR, item: Constraint, num: dict, value: float) -> str:
+    """The refusal of a failed constraint in card terms: the relation with the card values it
+    names (in their card units), then the other card parameters it depends on."""
+    from .units import from_si
+
+    specs = {s.name: s for s in ir.params}
+
+    def param_text(name: str) -> str:
+        return f"{name} = {_card_value(specs[name], num[specs[name].symbol])}"
+
+    def quantity_text(v: float) -> str:
+        unit = item.card_unit or item.unit
+        shown = v if unit == item.unit else from_si(v, item.unit, unit)
+        return f"{shown:.4g}" + ("" if unit in ("1", "") else f" {unit}")
+
+    values = {"value": quantity_text(value)}
+    for key, expr in item.shown:
+        values[key] = quantity_text(_evaluate(expr, num, key))
+    named: set[str] = set()
+
+    def fill(match) -> str:
+        key = match.group(1)
+        if key in values:
+            return values[key]
+        if key in specs:
+            named.add(key)
+            return param_text(key)
+        return match.group(0)
+
+    text = re.sub(r"\{([a-z_][a-z0-9_]*)\}", fill, item.message)
+    derived = dict(ir.derived)
+    involved: list[str] = []
+    seen: set[sp.Symbol] = set()
+
+    def walk(expr):
+        for sym in sorted(sp.sympify(expr).free_symbols, key=str):
+            if sym in seen:
+                continue
+            seen.add(sym)
+            if sym.name.startswith("vm_"):  # a process-variation multiplier (devices/variation.py)
+                continue
+            if sym in derived:
+                walk(derived[sym])
+            elif sym.name in specs and sym.name not in named and _card_level(specs[sym.name]):
+                involved.append(sym.name)
+
+    walk(item.expr)
+    for _, expr in item.shown:
+        walk(expr)
+    order = {s.name: i for i, s in enumerate(ir.params)}
+    rest = ", ".join(param_text(n) for n in sorted(involved, key=order.get))
+    return f"{text}: {rest}" if rest else text
+
+
+def _card_level(spec) -> bool:
+    """A parameter a card sets for the device itself (not a variation draw or spread, not an
+    instance parameter)."""
+    return spec.kind == "model" and spec.group != "process variation"
+
+
+def _card_value(spec, value: float) -> str:
+    """A parameter value as a card writes it, to 6 significant digits ("0.2 mJ/m^2")."""
+    from .units import from_si
+
+    unit = spec.card_unit or spec.unit
+    v = value if unit == spec.unit else from_si(value, spec.unit, unit)
+    return f"{v:.6g}" + ("" if unit in ("1", "") else f" {unit}")
+
+
+def _evaluate(expr: sp.Expr, num: dict, what: str, big: bool = False) -> float:
+    """``expr`` with the numbers ``num`` as a float; with ``big`` a positive value beyond the
+    double range comes back as a bignum.Overflow (inf that keeps its log10) instead of plain inf."""
     value = sp.sympify(sp.sympify(expr).xreplace(num))
     if isinstance(value, sp.Piecewise):
         value = value.doit()
     try:
-        return float(value.evalf(17))
+        value = value.evalf(17)
+        return bignum.from_sympy(value) if big else float(value)
     except TypeError as exc:
         z = complex(value.evalf(17)) if value.is_number else None
         if z is not None and z.imag != 0:  # e.g. a threshold past the point where the state exists
@@ -67,7 +140,8 @@ def _evaluate(expr: sp.Expr, num: dict, what: str) -> float:
 
 def figures(ir: ModelIR, overrides: dict[str, float] | None = None,
             temperature: float | None = None) -> dict[str, float]:
-    """Key figures as floats, at ``temperature`` [K] (default: the parameters' own ``tnom``)."""
+    """Key figures as floats, at ``temperature`` [K] (default: the parameters' own ``tnom``); one
+    beyond the double range (a retention time of a large pillar) is a bignum.Overflow."""
     num = numeric_parameters(ir, overrides)
     tdep = ir.temperature_dependent()
     if tdep:
@@ -77,7 +151,7 @@ def figures(ir: ModelIR, overrides: dict[str, float] | None = None,
         for sym, expr in ir.derived:
             if sym in tdep:
                 num[sym] = _evaluate(expr, num, str(sym))
-    return {f.name: _evaluate(f.expr, num, f.name) for f in ir.figures}
+    return {f.name: _evaluate(f.expr, num, f.name, big=True) for f in ir.figures}
 
 
 @dataclass

@@ -49,20 +49,32 @@ def run_tasks(func: Callable, tasks: Sequence, *, scheduler: str | None = None, 
             out.append(func(t))
             say(f"{what}: {k + 1}/{len(tasks)} done")
         return out
+    from .sim.tools import exit_with_parent
+
     method = "forkserver" if "forkserver" in multiprocessing.get_all_start_methods() else "spawn"
+    context = multiprocessing.get_context(method)
     results: list = [None] * len(tasks)
-    with ProcessPoolExecutor(max_workers=count, mp_context=multiprocessing.get_context(method)) as pool:
-        futures = {pool.submit(func, t): k for k, t in enumerate(tasks)}
-        done = 0
-        try:
-            for fut in as_completed(futures):
-                results[futures[fut]] = fut.result()
-                done += 1
-                say(f"{what}: {done}/{len(tasks)} done (local pool, {count} processes)")
-        except BaseException:
-            for f in futures:
-                f.cancel()
-            raise
+    # the workers end with this process however it ends (their simulators end with them)
+    alive_r, alive_w = context.Pipe(duplex=False)
+    try:
+        with ProcessPoolExecutor(max_workers=count, mp_context=context, initializer=exit_with_parent,
+                                 initargs=(alive_r,)) as pool:
+            futures = {pool.submit(func, t): k for k, t in enumerate(tasks)}
+            done = 0
+            try:
+                for fut in as_completed(futures):
+                    results[futures[fut]] = fut.result()
+                    done += 1
+                    say(f"{what}: {done}/{len(tasks)} done (local pool, {count} processes)")
+            except BaseException:
+                for f in futures:
+                    f.cancel()
+                for p in list(getattr(pool, "_processes", {}).values()):  # do not wait for running tasks
+                    p.kill()
+                raise
+    finally:
+        alive_r.close()
+        alive_w.close()
     return results
 
 

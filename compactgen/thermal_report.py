@@ -4,10 +4,12 @@ critical current against temperature, write-error-rate curves, switching-probabi
 from __future__ import annotations
 
 import html
+import math
 from pathlib import Path
 
 import numpy as np
 
+from . import bignum
 from .analytic import precessional_probability, retention_time
 from .constants import ZERO_CELSIUS
 from .ir import ModelIR
@@ -20,11 +22,11 @@ WER_WIDTHS = (2e-9, 5e-9, 10e-9, 20e-9)
 
 def thermal_context(ir: ModelIR) -> dict | None:
     """Numbers for the datasheet's thermal section, or None for a model without a free layer."""
+    if not {"delta", "i_c0"} <= {f.name for f in ir.figures}:
+        return None
     try:
         figs = {t: figures(ir, temperature=t + ZERO_CELSIUS) for t in TABLE_TEMPS_C}
     except KeyError:
-        return None
-    if "delta" not in figs[25.0] or "i_c0" not in figs[25.0]:
         return None
     rows = []
     for t, f in figs.items():
@@ -43,9 +45,11 @@ def thermal_context(ir: ModelIR) -> dict | None:
 
 
 def _duration(seconds: float) -> str:
+    year = 365.25 * 86400
+    if bignum.is_overflow(seconds):
+        return f"{bignum.sci(bignum.Overflow(seconds.log10 - math.log10(year)), 3)} years"
     if not np.isfinite(seconds):
         return "—"
-    year = 365.25 * 86400
     if seconds >= 1e3 * year:
         return f"{seconds / year:.2e} years"
     if seconds >= year:

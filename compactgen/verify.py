@@ -109,6 +109,8 @@ def parse_simulators(text: str) -> tuple[str, ...]:
     if text.strip() == "none":  # the reference solver alone (a quick look; not a verification)
         return ()
     sims = tuple(s.strip() for s in text.split(",") if s.strip())
+    if not sims:
+        raise InputError(f"--sim {text!r}: no simulator named; expected {' and/or '.join(SIMULATORS)}, or none")
     for s in sims:
         if s not in SIMULATORS:
             raise InputError(f"--sim: unknown simulator {s!r}; expected {' and/or '.join(SIMULATORS)}")

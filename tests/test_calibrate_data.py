@@ -155,3 +155,83 @@ def test_example_files_are_labelled_synthetic_and_read():
         ds = read_dataset(f)
         assert len(ds) > 0 and len(ds.sha256) == 64
         assert np.all(np.isfinite(np.concatenate([v for v in ds.columns.values() if v.dtype.kind == "f"])))
+
+
+# ---- row order of R-H loops ----------------------------------------------------------------------
+def _loop_file(tmp_path: Path, name: str, reorder) -> tuple[Path, list[str]]:
+    """examples/data/rh_loops_slow.csv with its data rows passed through ``reorder``."""
+    lines = (EXAMPLES / "data" / "rh_loops_slow.csv").read_text().splitlines()
+    head = next(i for i, x in enumerate(lines) if not x.startswith("#"))
+    rows = reorder(lines[head + 1:])
+    p = write(tmp_path, name, "\n".join(lines[:head + 1] + rows) + "\n")
+    return p, p.read_text().splitlines()
+
+
+def _reported_line(msg: str, path: Path) -> int:
+    import re
+
+    m = re.search(re.escape(str(path)) + r", line (\d+), column '(\w+)'", msg)
+    assert m, msg
+    return int(m.group(1))
+
+
+def test_shuffled_loop_is_refused_for_its_row_order_not_its_sign(tmp_path):
+    rng = np.random.default_rng(7)
+    p, text = _loop_file(tmp_path, "rh_shuffled.csv", lambda rows: [rows[i] for i in rng.permutation(len(rows))])
+    with pytest.raises(DataError) as exc:
+        read_dataset(p)
+    msg = str(exc.value)
+    assert "column 'field'" in msg and "not monotone within a branch" in msg and "out of order" in msg
+    assert "flip its sign" not in msg
+    field = float(text[_reported_line(msg, p) - 1].split(",")[0])
+    assert f"turns back at {field:.4g} mT" in msg
+    assert abs(field) < 0.8 * 450  # a turn in mid-sweep, not at the +-450 mT extremes
+
+
+def test_two_swapped_rows_in_a_branch_are_caught(tmp_path):
+    def swap(rows):
+        rows = list(rows)
+        rows[40], rows[50] = rows[50], rows[40]
+        return rows
+
+    p, text = _loop_file(tmp_path, "rh_swapped.csv", swap)
+    head = next(i for i, x in enumerate(text) if not x.startswith("#")) + 1  # 1-based line of the header
+    with pytest.raises(DataError, match="out of order") as exc:
+        read_dataset(p)
+    assert head + 41 <= _reported_line(str(exc.value), p) <= head + 51
+
+
+def test_loop_sorted_by_field_is_refused_for_its_row_order(tmp_path):
+    p, _ = _loop_file(tmp_path, "rh_sorted.csv", lambda rows: sorted(rows, key=lambda r: float(r.split(",")[0])))
+    ds = read_dataset(p)  # one monotone sweep per loop: the field alone cannot tell
+    fn = stt_functions(load_card(EXAMPLES / "pmtj35_demo.toml"))
+    with pytest.raises(DataError) as exc:
+        stt_blocks(fn, [ds])
+    msg = str(exc.value)
+    assert "rh_sorted.csv, line" in msg and "rows are out of order" in msg and "flip its sign" not in msg
+
+
+def test_field_jitter_below_two_steps_is_not_a_turn(tmp_path):
+    rng = np.random.default_rng(3)
+
+    def jitter(rows):
+        out = []
+        for r in rows:
+            h, rest = r.split(",", 1)
+            out.append(f"{float(h) + rng.uniform(-1.4, 1.4):.3f},{rest}")  # field step 3 mT
+        return out
+
+    p, _ = _loop_file(tmp_path, "rh_jitter.csv", jitter)
+    fn = stt_functions(load_card(EXAMPLES / "pmtj35_demo.toml"))
+    assert stt_blocks(fn, [read_dataset(p)])
+
+
+def test_fit_command_names_the_row_order_and_writes_nothing(tmp_path, capsys):
+    from compactgen.cli import main
+
+    rng = np.random.default_rng(11)
+    p, _ = _loop_file(tmp_path, "rh_shuffled.csv", lambda rows: [rows[i] for i in rng.permutation(len(rows))])
+    out = tmp_path / "fitted.toml"
+    assert main(["fit", str(EXAMPLES / "pmtj35_demo.toml"), str(p), "-o", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert "rh_shuffled.csv, line" in err and "out of order" in err and not out.exists()

@@ -49,7 +49,7 @@ def test_init_refuses_to_overwrite(tmp_path):
     card = tmp_path / "card.toml"
     card.write_text("keep me")
     code, err = run("init", "stt-mtj", "-o", str(card))
-    assert code == 2 or code == 1
+    assert code == 2
     assert "exists" in err and card.read_text() == "keep me"
 
 
@@ -72,7 +72,7 @@ BASE = starter_card("stt-mtj", "bad")
     (lambda t: t.replace('t_free = "1.3 nm"', "t_free = 1.3"), "the number 1.3 has no unit"),
     (lambda t: t.replace('name = "bad"', 'name = "Bad-Name"'), "[device] name = 'Bad-Name' must be lower-case"),
     (lambda t: t.replace('demag = "cylinder"', 'demag = "sphere"'), "[model] demag = 'sphere'; expected one of"),
-    (lambda t: t.replace('ki = "1.3 mJ/m^2"', 'ki = "0.2 mJ/m^2"'), "H_k,eff must be positive"),
+    (lambda t: t.replace('ki = "1.3 mJ/m^2"', 'ki = "0.2 mJ/m^2"'), "must be positive (perpendicular free layer"),
 ])
 def test_bad_card_is_one_clear_line_and_no_output(tmp_path, edit, message):
     card = tmp_path / "card.toml"
@@ -109,4 +109,23 @@ def test_verify_refuses_edited_build(tmp_path):
     lib = out / "pmtj35_demo.lib"
     lib.write_text(lib.read_text().replace("+ eta=", "+ eta=0.1*"))
     code, err = run("verify", str(out))
-    assert code == 1 and "edited by hand" in err
+    assert code == 2 and "edited by hand" in err  # bad input: exit 2 like every other
+
+
+@pytest.mark.parametrize("sim, fragment", [
+    ("spectre", "unknown simulator 'spectre'; expected ngspice and/or vacask"),
+    ("ngspice,xyce", "unknown simulator 'xyce'"),
+    (",", "no simulator named"),
+])
+def test_verify_with_an_unknown_simulator_is_bad_input(tmp_path, sim, fragment):
+    report = tmp_path / "verify.html"
+    code, err = run("verify", str(EXAMPLES / "pmtj35_demo.toml"), "--sim", sim, "--report", str(report))
+    assert code == 2 and fragment in err and err.count("\n") == 1
+    assert not report.exists()
+
+
+def test_build_into_a_file_is_bad_input(tmp_path):
+    target = tmp_path / "occupied"
+    target.write_text("a file, not a folder")
+    code, err = run("build", str(EXAMPLES / "pmtj35_demo.toml"), "-o", str(target))
+    assert code == 2 and "exists and is not a folder" in err and target.read_text() == "a file, not a folder"

@@ -61,7 +61,7 @@ def card_with(kind: str, **changes: str) -> str:
 
 @pytest.mark.parametrize("kind, changes, words", [
     ("dw-mtj", {"track_length": '"80 nm"'}, ["track_length", "mtj_length"]),  # a track shorter than the junction
-    ("dw-mtj", {"mtj_start": '"450 nm"'}, ["mtj_start + mtj_length", "track_length"]),  # junction beyond the end
+    ("dw-mtj", {"mtj_start": '"450 nm"'}, ["mtj_start = 450 nm + mtj_length = ", "track_length = "]),  # junction beyond the end
     ("dw-mtj", {"a_ex": '"100 pJ/m"', "track_length": '"120 nm"', "mtj_start": '"10 nm"', "mtj_length": '"50 nm"'},
      ["track_length", "wall widths", "a_ex"]),  # a wall too wide for the track
     ("dw-mtj", {"wall0": '"600 nm"'}, ["wall0", "track_length"]),

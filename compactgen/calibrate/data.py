@@ -310,6 +310,76 @@ def _check_rows(ds: Dataset) -> None:
     if ds.kind in ("resistance-field", "resistance-bias") and "resistance" in c:
         for r in np.nonzero(c["resistance"] <= 0)[0]:
             raise DataError(f"{ds.where(r, 'resistance')}: resistance must be positive")
+    if ds.kind == "resistance-field":
+        _check_sweep_order(ds)
+
+
+#: a sweep may turn back only this close to its extremes (fraction of the loop's field span)
+TURN_ZONE = 0.1
+
+
+def _check_sweep_order(ds: Dataset) -> None:
+    """The rows of an R-H loop must be in measurement order: the field runs monotonically along
+    each branch and turns back only near the loop's extremes.  A turn in mid-sweep means rows
+    out of order (a shuffled or merged file), which the branch analysis would otherwise read as
+    switching in the wrong direction.  Field read-back jitter of up to two field steps (or 2 %
+    of the span) is not a turn."""
+    h = ds.columns["field"]
+    loops = ds.columns.get("loop")
+    groups = [np.arange(len(h))] if loops is None else [np.nonzero(loops == k)[0] for k in np.unique(loops)]
+    for idx in groups:
+        hh = h[idx]
+        if len(hh) < 4:
+            continue
+        lo, hi = float(hh.min()), float(hh.max())
+        span = hi - lo
+        d = np.abs(np.diff(hh))
+        if not span > 0 or not np.any(d > 0):
+            continue
+        tol = max(2.0 * float(np.median(d[d > 0])), 0.02 * span)
+        for turn in _turns(hh, tol):
+            if lo + TURN_ZONE * span < hh[turn] < hi - TURN_ZONE * span:
+                row = int(idx[turn])
+                loop = "" if loops is None else f" of loop {loops[row]:g}"
+                raise DataError(
+                    f"{ds.where(row, 'field')}: the field turns back at {_file_value(ds, 'field', hh[turn])} in "
+                    f"mid-sweep{loop} (its sweep runs from {_file_value(ds, 'field', lo)} to "
+                    f"{_file_value(ds, 'field', hi)}): the field column is not monotone within a branch, so the rows "
+                    "are out of order (shuffled, sorted or merged files?). List the points in measurement order, "
+                    "branch by branch; give separate sweeps (e.g. minor loops) their own 'loop' index")
+
+
+def _turns(h: np.ndarray, tol: float) -> list[int]:
+    """Indices where a sweep reverses direction, ignoring retreats of at most ``tol``."""
+    turns = []
+    direction = 0  # +1 rising, -1 falling, 0 not yet known
+    hi_i = lo_i = 0  # running maximum / minimum since the last turn
+    for k in range(1, len(h)):
+        if h[k] > h[hi_i]:
+            hi_i = k
+        if h[k] < h[lo_i]:
+            lo_i = k
+        if direction >= 0 and h[hi_i] - h[k] > tol:  # falls back from the running maximum
+            if direction > 0:
+                turns.append(hi_i)
+            direction, lo_i = -1, k
+        elif direction <= 0 and h[k] - h[lo_i] > tol:  # rises from the running minimum
+            if direction < 0:
+                turns.append(lo_i)
+            direction, hi_i = 1, k
+    return turns
+
+
+def _file_value(ds: Dataset, column: str, si_value: float) -> str:
+    """A value of ``column`` in the unit the file writes it in."""
+    from ..units import from_si
+
+    unit = ds.units.get(column, "")
+    si = ds.schema.column_specs()[column].si_unit
+    try:
+        return f"{from_si(si_value, si, unit):.4g} {unit}"
+    except Exception:  # an exotic spelling pint reads only through linear_map: fall back to SI
+        return f"{si_value:.4g} {si}"
 
 
 def _check_meta(ds: Dataset) -> None:

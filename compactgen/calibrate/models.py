@@ -216,6 +216,14 @@ def reduce_loops(ds: Dataset) -> LoopSummary:
             if k == len(d) or (sign[k] != sign[start] and sign[k] != 0):
                 seg = slice(start, k + 1)
                 hs, as_ = hh[seg], aa[seg]
+                flips = np.nonzero(as_[1:] != as_[:-1])[0]
+                if len(flips) > 1:
+                    raise DataError(
+                        f"{ds.where(int(idx[start + flips[0] + 1]), 'resistance')}: the state switches {len(flips)} "
+                        f"times while the field {'rises' if sign[start] > 0 else 'falls'} monotonically (lines "
+                        f"{ds.lines[idx[start]]} to {ds.lines[idx[k]]}); a loop branch switches once, so the rows "
+                        "are out of order (a file sorted by field merges both branches), or the device shows "
+                        "telegraph noise, which this fit does not model")
                 if len(hs) > 2 and as_[0] != as_[-1]:
                     last_old = np.nonzero(as_ == as_[0])[0].max()
                     h_sw = 0.5 * (hs[last_old] + hs[min(last_old + 1, len(hs) - 1)])

@@ -25,6 +25,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ..devices.common import shared_defaults
 from ..errors import DataError, InputError
 from ..params import ParamSpec
 from .data import Dataset
@@ -93,6 +94,7 @@ def prepare_values(card, datasets: list[Dataset]) -> tuple[dict[str, float], lis
         if abs(temp - values["tnom"]) > 1e-9:
             notes.append(f"tnom set to the data temperature {temp:.2f} K (card: {values['tnom']:.2f} K)")
         values["tnom"] = temp
+        values = shared_defaults(card.device.table(), values, card.given)  # pol_decay follows tnom unless given
     for n, s in NUISANCE_SPECS.items():
         values.setdefault(n, s.default)
     return values, notes

@@ -10,6 +10,7 @@ import sympy as sp
 
 from ..physics import anisotropy, geometry, macrospin, temperature, thermal, tunnelling
 from ..physics.constants import const_values, gamma0
+from ..ir import Constraint
 from ..params import ParamSpec
 
 NM = 1e-9
@@ -73,8 +74,33 @@ def mtj_read_specs() -> list[ParamSpec]:
         ParamSpec("pol_decay", "1/K^1.5", 2e-5, 0.0, 1e-4,
                   "spin-polarisation decay alpha_sp in P(T) = P0 (1 - alpha_sp T^(3/2)) (TMR(T) through Julliere)",
                   source="C. H. Shang et al., Phys. Rev. B 58, R2917 (1998) (law seen; value illustrative)",
-                  card_unit="1/K^1.5", group="temperature"),
+                  card_unit="1/K^1.5", group="temperature",
+                  computed="from tmr0 and tnom unless given: 2e-05 1/K^1.5, lowered to (1 - P)/(2 tnom^1.5) where "
+                           "tmr0 needs it. P = sqrt(tmr0/(2 + tmr0)) is the polarisation at tnom (Julliere); the "
+                           "0 K polarisation P/(1 - pol_decay tnom^1.5) must stay below 1, so a given value must "
+                           "be below (1 - P)/tnom^1.5 (at 27 degC: 3.5e-5 for tmr0 = 4, 1.7e-5 for tmr0 = 10)"),
     ]
+
+
+def default_pol_decay(tmr0: float, tnom: float, kind_default: float = 2e-5) -> float:
+    """The pol_decay a card gets when it gives none: the kind default, lowered where tmr0 is so
+    high that it would put the zero-temperature polarisation P0 = P(tnom)/(1 - a tnom^1.5) at or
+    above 1 (the constraint in mtj_conductance).  The lowered value keeps P0 halfway between
+    P(tnom) and 1: a = (1 - P(tnom))/(2 tnom^1.5), so every tmr0 in [0, 10] at every tnom in the
+    documented range has a valid default, with room left for the larger tmr0 of the ff corner
+    and Monte Carlo draws."""
+    p_nom = float(tunnelling.julliere_polarisation(tmr0))
+    return min(kind_default, (1.0 - p_nom) / (2.0 * tnom ** 1.5))
+
+
+def shared_defaults(table, values: dict[str, float], given: frozenset[str]) -> dict[str, float]:
+    """Defaults every kind with a tunnel junction computes from other card values (after the
+    kind's own ``derive_defaults``; ``table`` is the kind's ParamTable): pol_decay from tmr0 and
+    tnom unless the card gives it."""
+    if "pol_decay" in table and "pol_decay" not in given and {"tmr0", "tnom"} <= set(values):
+        values = dict(values, pol_decay=default_pol_decay(values["tmr0"], values["tnom"],
+                                                          table["pol_decay"].default))
+    return values
 
 
 def limit_specs(v_max: float = 1.2, j_max: float = 1.5e11) -> list[ParamSpec]:
@@ -177,8 +203,8 @@ def free_layer(parts: Parts, area):
     hk = parts.d("hk", anisotropy.anisotropy_field(ku, ms_nom))
     nx = parts.d("demag_nx", (1 - P["demag_nz"]) / 2)
     hk_eff = parts.d("hk_eff", anisotropy.effective_anisotropy_field(hk, ms_nom, nx, P["demag_nz"]))
-    parts.constraints.append((hk_eff, "the effective anisotropy field H_k,eff must be positive "
-                              "(perpendicular free layer); raise ki or lower ms"))
+    parts.constraints.append(Constraint(hk_eff, "the effective anisotropy field H_k,eff = {value} must be positive "
+                                        "(perpendicular free layer; raise ki or lower ms)", "A/m", "kA/m"))
     vol = parts.d("vol", area * P["t_free"], positive=True)
     keff = parts.d("keff", anisotropy.effective_energy_density(hk_eff, ms_nom))
     e_b = parts.d("e_b", thermal.barrier_energy(keff, vol))
@@ -272,9 +298,12 @@ def mtj_conductance(parts: Parts, area, v, cos_theta):
     P = parts.P
     if {"pol_decay", "tnom", "dtemp"} <= set(P):
         p_nom = parts.d("pol_nom", tunnelling.julliere_polarisation(P["tmr0"]), positive=True)
-        parts.constraints.append((1 - P["pol_decay"] * P["tnom"] ** sp.Rational(3, 2) - p_nom,
-                                  "pol_decay is too large for tmr0: the spin polarisation would exceed 1 "
-                                  "at low temperature; lower pol_decay"))
+        bound = (1 - p_nom) / P["tnom"] ** sp.Rational(3, 2)
+        parts.constraints.append(Constraint(
+            bound - P["pol_decay"],
+            "{pol_decay} must be below (1 - P)/tnom^1.5 = {bound} for {tmr0} at {tnom} (P = sqrt(tmr0/(2 + tmr0)), "
+            "else the spin polarisation would exceed 1 at low temperature); lower pol_decay, or leave it out of "
+            "the card to have it computed", "1/K^1.5", shown=(("bound", bound),)))
         temp = device_temperature(parts)
         pol_t = parts.d("pol_t", p_nom * temperature.polarisation_ratio(temp, P["tnom"], P["pol_decay"]))
         P["tmr0"] = parts.d("tmr_t", tunnelling.julliere_tmr(pol_t, pol_t))

@@ -19,7 +19,7 @@ import dataclasses
 
 import sympy as sp
 
-from ..ir import Branch, Figure, ModelIR, Output, State
+from ..ir import Branch, Constraint, Figure, ModelIR, Output, State
 from ..params import ParamSpec
 from ..physics import anisotropy, domain_wall, heavy_metal, temperature, torques, tunnelling
 from ..physics.constants import const_values, gamma0
@@ -110,8 +110,9 @@ class DwMtj(DeviceKind):
         ku = parts.d("ku", anisotropy.uniaxial_energy_density(P["kb"], P["ki"], P["t_free"]))
         hk = parts.d("hk", anisotropy.anisotropy_field(ku, P["ms"]))
         hk_eff = parts.d("hk_eff", anisotropy.effective_anisotropy_field(hk, P["ms"], 0, 1))
-        parts.constraints.append((hk_eff, "the effective anisotropy field H_k,eff of the track must be positive "
-                                  "(perpendicular track); raise ki or lower ms"))
+        parts.constraints.append(Constraint(hk_eff, "the effective anisotropy field H_k,eff = {value} of the track "
+                                            "must be positive (perpendicular track; raise ki or lower ms)",
+                                            "A/m", "kA/m"))
         keff = parts.d("keff", anisotropy.effective_energy_density(hk_eff, P["ms"]))
         tsc = parts.d("tsc", 1 / (gamma0 * hk_eff))  # at tnom: time scales may not depend on temperature
         # at the device temperature T = simulator temperature + dtemp: Ms(T) (Bloch) and K(T)
@@ -130,14 +131,17 @@ class DwMtj(DeviceKind):
         h_kw = parts.d("h_kwall", domain_wall.wall_anisotropy_field(domain_wall.wall_demag_factor(P["t_free"], dw),
                                                                     P["ms"]))
         h_d = parts.d("h_dmi", domain_wall.dmi_field(P["dmi"], P["ms"], dw))
+        wall = domain_wall.wall_width(P["a_ex"], keff)
         parts.constraints += [
-            (L - MIN_TRACK_WIDTHS * domain_wall.wall_width(P["a_ex"], keff), f"track_length must exceed {MIN_TRACK_WIDTHS} wall widths "
-                                        "Delta = sqrt(a_ex/K_eff) (the wall is too wide for the track; lower a_ex or "
-                                        "raise the anisotropy); margin"),
-            (L - P["mtj_length"], "the track (track_length) must be longer than the junction (mtj_length); margin"),
-            (L - P["mtj_start"] - P["mtj_length"] + sp.Rational(1, 10**15),
-             "the junction (mtj_start + mtj_length) must lie inside the track (track_length); margin"),
-            (L - P["wall0"] + sp.Rational(1, 10**15), "wall0 must lie inside the track (at most track_length); margin"),
+            Constraint(L - MIN_TRACK_WIDTHS * wall, f"{{track_length}} must exceed {MIN_TRACK_WIDTHS} wall widths "
+                       "Delta = sqrt(a_ex/K_eff) = {wall} (the wall is too wide for the track; lower a_ex or raise the "
+                       "anisotropy)", "m", "nm", shown=(("wall", wall),)),
+            Constraint(L - P["mtj_length"],
+                       "the track ({track_length}) must be longer than the junction ({mtj_length})"),
+            Constraint(L - P["mtj_start"] - P["mtj_length"] + sp.Rational(1, 10**15),
+                       "the junction ({mtj_start} + {mtj_length}) must lie inside the track ({track_length})"),
+            Constraint(L - P["wall0"] + sp.Rational(1, 10**15),
+                       "{wall0} must lie inside the track (at most {track_length})"),
         ]
         # write line split at the junction centre
         x_tap = parts.d("x_tap", P["mtj_start"] + P["mtj_length"] / 2)

@@ -17,7 +17,7 @@ import numpy as np
 import sympy as sp
 
 from ..constants import MU0
-from ..ir import Branch, Figure, ModelIR, Output
+from ..ir import Branch, Constraint, Figure, ModelIR, Output
 from ..params import ParamSpec
 from ..physics import heavy_metal, macrospin, spin_orbit, switching, torques
 from ..physics.constants import const_values
@@ -84,13 +84,16 @@ class SotMtj(DeviceKind):
         sigma = tuple(spin_orbit.spin_hall_polarisation())
         _, states = macrospin_states(parts, fl, h_sh, P["xi_sot"] * h_sh, sigma,
                                      extra_torques=[(h_stt, 0, (0, 0, 1))])
-        parts.constraints.append((P["line_width"] - P["diameter"], "line_width must be at least the pillar diameter"))
-        parts.constraints.append((P["line_length"] - P["diameter"],
-                                  "line_length must be longer than the pillar diameter"))
-        parts.constraints.append((sp.Abs(P["theta_sh"]) - 1e-4, "theta_sh must not be zero (no spin-orbit torque)"))
-        parts.constraints.append((fl["hk_eff"] - sp.Abs(P["hx"]),
-                                  "the bias field |hx| must stay below the effective anisotropy field H_k,eff "
-                                  "(else the free layer lies in plane)"))
+        parts.constraints.append(Constraint(P["line_width"] - P["diameter"],
+                                            "{line_width} must be at least the pillar {diameter}"))
+        parts.constraints.append(Constraint(P["line_length"] - P["diameter"],
+                                            "{line_length} must be longer than the pillar {diameter}"))
+        parts.constraints.append(Constraint(sp.Abs(P["theta_sh"]) - 1e-4, "{theta_sh} must not be zero (|theta_sh| "
+                                            "at least 1e-4; without it there is no spin-orbit torque)"))
+        parts.constraints.append(Constraint(fl["hk_eff"] - sp.Abs(P["hx"]),
+                                            "the bias field {hx} must stay below the effective anisotropy field "
+                                            "H_k,eff = {hk_eff} in magnitude (else the free layer lies in plane)",
+                                            "A/m", "mT", shown=(("hk_eff", fl["hk_eff"]),)))
         h_c = spin_orbit.threshold_field(sp.Abs(P["hx"]), fl["hk_eff_t"])
         j_c = spin_orbit.current_density_for_field(h_c, sp.Abs(P["theta_sh"]), P["ms"], P["t_free"])
         r_p = P["ra"] / area

@@ -4,7 +4,9 @@ and a manifest with a sha256 of every file.
 A bundle is written into a hidden staging folder beside its final place and renamed into
 place only when every file is written, so an interrupted release leaves no bundle; an
 existing version is never overwritten.  The manifest seals itself: ``manifest_sha256`` is the
-sha256 of the manifest written without that key, so an edited manifest is caught too.
+sha256 of the manifest written without that key, so an edited manifest is caught too.  That
+proves integrity against accidental change only (whoever can write a bundle can re-seal it);
+the bundle digest (sha256 of manifest.json), recorded outside the bundle, covers the rest.
 """
 from __future__ import annotations
 
@@ -19,7 +21,7 @@ import tempfile
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .. import __version__
+from .. import __version__, bignum
 from ..errors import ReleaseError
 from .curves import CurveTable, read_csv
 from .semver import Version, parse_version
@@ -79,6 +81,7 @@ class BundleCheck:
     unexpected: list[str] = field(default_factory=list)
     manifest_problem: str = ""
     n_files: int = 0
+    digest: str = ""  # sha256 of manifest.json as found
 
     @property
     def ok(self) -> bool:
@@ -86,7 +89,8 @@ class BundleCheck:
 
     def text(self) -> str:
         if self.ok:
-            return f"{self.root}: intact ({self.n_files} files and the manifest match their sha256)"
+            return (f"{self.root}: intact ({self.n_files} files and the manifest match their sha256)\n"
+                    f"  bundle digest: {self.digest} (sha256 of {MANIFEST})")
         lines = [f"{self.root}: NOT INTACT"]
         if self.manifest_problem:
             lines.append(f"  manifest.json: {self.manifest_problem}")
@@ -94,6 +98,22 @@ class BundleCheck:
         lines += [f"  missing:    {p}" for p in self.missing]
         lines += [f"  unexpected: {p} (not listed in the manifest)" for p in self.unexpected]
         return "\n".join(lines)
+
+
+#: what the bundle's own hashes prove, said wherever a bundle is checked
+INTEGRITY_ONLY = ("This proves integrity against accidental change only (a damaged or edited file): whoever can "
+                  "write the bundle can also re-hash and re-seal it. To detect deliberate changes, compare the "
+                  "bundle digest with one recorded outside the bundle at release time (--digest), or with the "
+                  "record a later release keeps of it (--against).")
+
+
+def bundle_digest(root: str | Path) -> str:
+    """The digest that identifies a bundle: the sha256 of its manifest.json file (which holds the
+    sha256 of every other file), the same as `sha256sum manifest.json` prints."""
+    path = Path(root) / MANIFEST
+    if not path.is_file():
+        raise ReleaseError(f"{root}: no {MANIFEST}; not a release bundle made by `compactgen release`")
+    return sha256(path.read_bytes())
 
 
 def sha256(data: bytes | str) -> str:
@@ -131,7 +151,7 @@ def check_bundle(root: str | Path) -> BundleCheck:
     """Re-hash every file of a bundle and the manifest itself."""
     root = Path(root)
     manifest = _read_manifest(root)
-    check = BundleCheck(root)
+    check = BundleCheck(root, digest=bundle_digest(root))
     listed = manifest.get("files")
     if not isinstance(listed, dict):
         check.manifest_problem = "has no table of file hashes"
@@ -277,7 +297,7 @@ def release_manifest(card, ir, version: Version, suite, figures: dict[str, float
     """Everything but the file hashes, the comparison and the date."""
     from .. import render
 
-    fig_rec = {f.name: {"value": figures[f.name], "unit": f.unit, "desc": f.desc} for f in ir.figures}
+    fig_rec = {f.name: dict(bignum.to_record(figures[f.name]), unit=f.unit, desc=f.desc) for f in ir.figures}
     return json_safe({
         "format": FORMAT,
         "name": ir.name,
@@ -305,21 +325,76 @@ def _write_one(path: Path, content: bytes) -> None:
     path.chmod(0o444)  # read-only: a bundle is not edited after the release
 
 
-def publish(files: dict[str, bytes], out_root: Path, label: str) -> Path:
-    """Write ``files`` into ``out_root/label`` all-or-nothing (stage, then one rename)."""
-    out_root.mkdir(parents=True, exist_ok=True)
-    target = out_root / label
-    for stale in out_root.glob(f".{label}.partial-*"):  # left behind by a killed release
-        shutil.rmtree(stale, ignore_errors=True)
-    stage = Path(tempfile.mkdtemp(prefix=f".{label}.partial-", dir=out_root))
-    try:
-        for rel, content in files.items():
-            _write_one(stage / rel, content)
+STAGING_MARK = ".partial-"
+
+
+class Staging:
+    """The hidden folder ``out_root/.<label>.partial-<pid>-XXXX`` a bundle is written into while
+    a release runs, renamed to ``out_root/<label>`` when complete (``publish``).
+
+    As a context manager it removes the folder on any exception, including the Terminated and
+    KeyboardInterrupt the command line raises on SIGTERM/SIGHUP/SIGINT.  What a process killed
+    outright (SIGKILL, power loss) leaves behind is swept by the next release into ``out_root``:
+    the folder names the process id, and folders of processes that no longer run are removed."""
+
+    def __init__(self, out_root: Path, label: str, say=None):
+        self.out_root = Path(out_root)
+        self.label = label
+        self.out_root.mkdir(parents=True, exist_ok=True)
+        for stale, why in stale_staging(self.out_root, label):
+            shutil.rmtree(stale, ignore_errors=True)
+            if say:
+                say(f"removed {stale}: staging folder of an interrupted release ({why})")
+        self.path = Path(tempfile.mkdtemp(prefix=f".{label}{STAGING_MARK}{os.getpid()}-", dir=self.out_root))
+        self.written: list[str] = []
+
+    def write(self, rel: str, content: bytes) -> None:
+        _write_one(self.path / rel, content)
+        self.written.append(rel)
+
+    def publish(self) -> Path:
+        target = self.out_root / self.label
         if target.exists():
             raise ReleaseError(f"{target}: appeared while the release was being written; nothing overwritten")
-        stage.chmod(0o755)  # mkdtemp makes it private
-        os.rename(stage, target)
-    except BaseException:
-        shutil.rmtree(stage, ignore_errors=True)
-        raise
-    return target
+        self.path.chmod(0o755)  # mkdtemp makes it private
+        os.rename(self.path, target)
+        return target
+
+    def discard(self) -> None:
+        shutil.rmtree(self.path, ignore_errors=True)
+
+    def __enter__(self) -> "Staging":
+        return self
+
+    def __exit__(self, exc_type, exc, tb) -> None:
+        if exc_type is not None:
+            self.discard()
+
+
+def stale_staging(out_root: Path, label: str) -> list[tuple[Path, str]]:
+    """Staging folders in ``out_root`` left by releases that no longer run: those whose process id
+    is not alive, and folders of ``label`` from before staging folders named their process."""
+    out = []
+    for p in sorted(out_root.glob(f".*{STAGING_MARK}*")):
+        if not p.is_dir():
+            continue
+        owner = p.name.rsplit(STAGING_MARK, 1)[1].split("-", 1)[0]
+        if owner.isdigit():
+            if not _process_alive(int(owner)):
+                out.append((p, f"process {owner} no longer runs"))
+        elif p.name.startswith(f".{label}{STAGING_MARK}"):
+            out.append((p, "an earlier release of the same version"))
+    return out
+
+
+def _process_alive(pid: int) -> bool:
+    if pid == os.getpid():
+        return True
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:  # exists, another user's
+        return True
+    return True
+

@@ -7,7 +7,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .. import __version__
+from .. import __version__, bignum
 from .compare import Band, Comparison, CurveRow
 
 _PREFIX = ((1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"), (1e-9, "n"),
@@ -23,6 +23,10 @@ def value_text(x: float | None, unit: str) -> str:
     """4 significant digits, with an SI prefix for the plain units designers read (2.946 ns)."""
     if x is None or (isinstance(x, float) and math.isnan(x)):
         return "—"
+    if bignum.is_overflow(x):  # beyond the double range: the true exponent, as in the datasheet
+        if unit == "s":
+            return f"{bignum.sci(x, 4)} s ({bignum.sci(bignum.Overflow(x.log10 - math.log10(YEAR)), 3)} years)"
+        return bignum.sci(x, 4) + ("" if unit in ("", "1") else f" {unit}")
     if math.isinf(x):
         return "inf"
     if unit == "s" and abs(x) >= 1e3:  # retention-like times: seconds and years, no giga-seconds
@@ -139,6 +143,15 @@ def change_text(r) -> str:
     """Relative change, or the absolute one for figures with an absolute band (values near 0 or +-1)."""
     if r.old is None or r.new is None:
         return "—"
+    if bignum.is_overflow(r.old) or bignum.is_overflow(r.new):
+        d = bignum.log10_of(r.new) - bignum.log10_of(r.old)
+        if d == 0:
+            return "0"
+        if math.isnan(d):
+            return "—"
+        return f"x {10 ** d:.3g}" if abs(d) < 300 else f"x 10^{d:+.4g}"
+    if not (math.isfinite(r.old) and math.isfinite(r.new)):
+        return "—"
     if r.band.log and r.old > 0 and r.new > 0 and r.new != r.old:
         return f"x {r.new / r.old:.3g}"
     if r.band.rtol == 0 or r.rel is None:
@@ -186,11 +199,14 @@ def sections(c: Comparison) -> list[Section]:
     s.bad = [not r.ok for r in c.figures]
     out.append(s)
     s = Section("Bench figures")
-    s.text.append("Each bench figure is compared for the reference solution and each simulator; 'change / band' "
-                  "is the largest of them (its source in brackets). 'old' and 'new' are the reference values.")
+    several = len(c.sources) > 1
+    s.text.append(f"Each bench figure is compared for {_sources_text(c)}; 'change / band' is "
+                  + ("the largest of them (its source in brackets)" if several else "its change over the band")
+                  + ". 'old' and 'new' are the reference values.")
     s.headers = ["bench", "figure", "old", "new", "change", "band", "change / band", "verdict"]
     s.rows = [[r.group, r.name, value_text(r.old, r.unit), value_text(r.new, r.unit), change_text(r),
-               r.band.text(r.unit), ratio_text(r.error) + (f" ({r.source})" if r.source and r.error >= NOISE else ""),
+               r.band.text(r.unit),
+               ratio_text(r.error) + (f" ({r.source})" if several and r.source and r.error >= NOISE else ""),
                r.status] for r in c.metrics]
     s.bad = [not r.ok for r in c.metrics]
     s.after = [f"{b}: {n}" for b, n in c.stimulus_changes.items()]
@@ -201,7 +217,7 @@ def sections(c: Comparison) -> list[Section]:
     out.append(s)
     s = Section("Curves", curves=True)
     s.text.append("Each bench's curve file compared point by point on the old release's grid over the common "
-                  "range, for the reference and each simulator: every terminal current, the states the bench "
+                  f"range, for {_sources_text(c)}: every terminal current, the states the bench "
                   "observes (plots), and the stimulus voltages when the stimulus is unchanged. The worst column is "
                   "shown. States a bench does not observe (e.g. the in-plane components of a precessing "
                   "magnetisation, whose phase any small change shifts) are kept in the files but not compared. "
@@ -226,6 +242,11 @@ def sections(c: Comparison) -> list[Section]:
     s.bad = [False] * len(s.rows)
     out.append(s)
     return out
+
+
+def _sources_text(c: Comparison) -> str:
+    sims = [x for x in c.sources if x != "reference"]
+    return "the reference solution" + (f" and {', '.join(sims)}" if sims else " only")
 
 
 def _cell(text: str) -> str:

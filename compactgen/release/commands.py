@@ -1,14 +1,15 @@
 """`compactgen release`, `compactgen compare`, `compactgen check-release`, and the demo step."""
 from __future__ import annotations
 
+import re
 import sys
 import time
 from dataclasses import dataclass
 from pathlib import Path
 
 from ..errors import CompactgenError, InputError, ReleaseError
-from .bundle import (MANIFEST, SEAL, Bundle, ReleaseRefused, check_bundle, created_stamp, load_bundle, manifest_text,
-                     publish, release_manifest, seal, sha256)
+from .bundle import (INTEGRITY_ONLY, MANIFEST, SEAL, Bundle, ReleaseRefused, Staging, bundle_digest, check_bundle,
+                     created_stamp, load_bundle, manifest_text, release_manifest, seal, sha256)
 from .compare import Comparison, compare_bundles
 from .semver import parse_version
 
@@ -23,6 +24,7 @@ class ReleaseOutcome:
     manifest: dict
     comparison: Comparison | None
     suite: object  # verify.SuiteResult
+    digest: str = ""  # sha256 of the bundle's manifest.json (bundle.bundle_digest)
 
 
 def make_release(card_path: str | Path, version: str, out_root: str | Path, against: str | Path | None = None,
@@ -68,59 +70,71 @@ def make_release(card_path: str | Path, version: str, out_root: str | Path, agai
     t0 = time.perf_counter()
     reused = suite is not None
     ir = card.ir()
-    if suite is None:
-        say(f"release {card.name} {ver}: running the bench suite in ngspice and VACASK")
-        benches = card.device.benches(ir, card.values)
-        suite = run_suite(ir, benches, progress=progress_printer() if progress else None)
-    elif suite.model != ir.name:
-        raise ValueError(f"suite result is for {suite.model}, not {ir.name}")
-    if not suite.passed:
-        failed = [f"{r.bench}: {r.metric}" for r in suite.rows if not r.passed]
-        if progress:
-            print(suite.table())
-        raise ReleaseRefused(f"{card_path}: {len(failed)} of {len(suite.rows)} bench figures fail "
-                             f"({', '.join(failed[:4])}{', ...' if len(failed) > 4 else ''}); a model that fails "
-                             f"its benches is not released. See them with `compactgen verify {card_path} "
-                             "--report verify.html`")
-    ran = "result of the verification just run" if reused else f"{time.perf_counter() - t0:.1f} s"
-    say(f"release {card.name} {ver}: bench suite passed ({len(suite.rows)} figures, {ran}); "
-        "writing curves and reports")
-    text = {k: v for k, v in build_files(card).items() if k != MANIFEST}
-    text[f"{card.name}.card.toml"] = card.text
-    for run in suite.runs:
-        meta = {"model": f"{card.name} {ver}", "bench": run.bench.name, "title": run.bench.title,
-                "sources": ", ".join(["reference"] + sorted(s for s in run.traces if s != "reference")),
-                "grid": "transient, uniform output step" if run.bench.analysis == "tran" else "DC sweep points"}
-        text[f"curves/{run.bench.name}.csv"] = write_csv(curve_table(ir, run, meta))
-    manifest = release_manifest(card, ir, ver, suite, eval_figures(ir))
-    files = {k: v.encode("utf-8") for k, v in text.items()}
-    comparison = None
-    refused = out_root / f"{label}.refused.html"
-    if prev is not None:
-        comparison = compare_bundles(prev, Bundle(manifest, files=files), accepted=accept)
-        specs = {b: r["plot"] for b, r in manifest["benches"].items()}
-        if progress:
-            print(summary_text(comparison))
-        if not comparison.passed:
-            write_files({refused.name: html(comparison, specs)}, out_root)
-            raise ReleaseRefused(
-                f"release {label} refused: {comparison.verdict()}. Report: {refused}. If the changes are "
-                f"intended, run again with --accept \"why\" (the reason goes into the manifest and the report)")
-        files["changes.md"] = markdown(comparison).encode("utf-8")
-        files["changes.html"] = html(comparison, specs).encode("utf-8")
-        manifest["comparison"] = dict(comparison.record(), against_manifest_sha256=prev.manifest.get(SEAL))
-    files["verify.html"] = verify_html(suite, f"{card.name} {ver}: verification").encode("utf-8")
-    manifest["files"] = {k: sha256(v) for k, v in sorted(files.items())}
-    manifest["created"] = created_stamp()
-    files[MANIFEST] = manifest_text(seal(manifest)).encode("utf-8")
-    path = publish(files, out_root, label)
+    # the bundle grows in a hidden staging folder, removed if the release stops for any reason
+    with Staging(out_root, label, say) as stage:
+        files: dict[str, bytes] = {}
+
+        def add(rel: str, content: str | bytes) -> None:
+            files[rel] = content.encode("utf-8") if isinstance(content, str) else content
+            stage.write(rel, files[rel])
+
+        for rel, content in build_files(card).items():
+            if rel != MANIFEST:
+                add(rel, content)
+        add(f"{card.name}.card.toml", card.text)
+        if suite is None:
+            say(f"release {card.name} {ver}: running the bench suite in ngspice and VACASK")
+            benches = card.device.benches(ir, card.values)
+            suite = run_suite(ir, benches, progress=progress_printer() if progress else None)
+        elif suite.model != ir.name:
+            raise ValueError(f"suite result is for {suite.model}, not {ir.name}")
+        if not suite.passed:
+            failed = [f"{r.bench}: {r.metric}" for r in suite.rows if not r.passed]
+            if progress:
+                print(suite.table())
+            raise ReleaseRefused(f"{card_path}: {len(failed)} of {len(suite.rows)} bench figures fail "
+                                 f"({', '.join(failed[:4])}{', ...' if len(failed) > 4 else ''}); a model that "
+                                 f"fails its benches is not released. See them with `compactgen verify {card_path} "
+                                 "--report verify.html`")
+        ran = "result of the verification just run" if reused else f"{time.perf_counter() - t0:.1f} s"
+        say(f"release {card.name} {ver}: bench suite passed ({len(suite.rows)} figures, {ran}); "
+            "writing curves and reports")
+        for run in suite.runs:
+            meta = {"model": f"{card.name} {ver}", "bench": run.bench.name, "title": run.bench.title,
+                    "sources": ", ".join(["reference"] + sorted(s for s in run.traces if s != "reference")),
+                    "grid": "transient, uniform output step" if run.bench.analysis == "tran" else "DC sweep points"}
+            add(f"curves/{run.bench.name}.csv", write_csv(curve_table(ir, run, meta)))
+        manifest = release_manifest(card, ir, ver, suite, eval_figures(ir))
+        comparison = None
+        refused = out_root / f"{label}.refused.html"
+        if prev is not None:
+            comparison = compare_bundles(prev, Bundle(manifest, files=files), accepted=accept)
+            specs = {b: r["plot"] for b, r in manifest["benches"].items()}
+            if progress:
+                print(summary_text(comparison))
+            if not comparison.passed:
+                write_files({refused.name: html(comparison, specs)}, out_root)
+                raise ReleaseRefused(
+                    f"release {label} refused: {comparison.verdict()}. Report: {refused}. If the changes are "
+                    f"intended, run again with --accept \"why\" (the reason goes into the manifest and the report)")
+            add("changes.md", markdown(comparison))
+            add("changes.html", html(comparison, specs))
+            manifest["comparison"] = dict(comparison.record(), against_manifest_sha256=prev.manifest.get(SEAL),
+                                          against_digest=bundle_digest(prev.root))
+        add("verify.html", verify_html(suite, f"{card.name} {ver}: verification"))
+        manifest["files"] = {k: sha256(v) for k, v in sorted(files.items())}
+        manifest["created"] = created_stamp()
+        add(MANIFEST, manifest_text(seal(manifest)))
+        path = stage.publish()
     refused.unlink(missing_ok=True)
-    say(f"released {path} ({len(files)} files, {time.perf_counter() - t0:.1f} s)")
-    return ReleaseOutcome(path, manifest, comparison, suite)
+    digest = sha256(files[MANIFEST])
+    say(f"released {path} ({len(files)} files, {time.perf_counter() - t0:.1f} s); bundle digest {digest} "
+        f"(sha256 of {MANIFEST}): record this digest elsewhere")
+    return ReleaseOutcome(path, manifest, comparison, suite, digest)
 
 
-def compare_dirs(old: str | Path, new: str | Path, accept: str | None = None) -> Comparison:
-    return compare_bundles(load_bundle(old), load_bundle(new), accepted=accept)
+def compare_dirs(old: str | Path, new: str | Path, accept: str | None = None, simulators=None) -> Comparison:
+    return compare_bundles(load_bundle(old), load_bundle(new), accepted=accept, simulators=simulators)
 
 
 # ---- command line ------------------------------------------------------------------------------
@@ -144,13 +158,23 @@ def add_commands(sub) -> None:
     p.add_argument("--accept", help="reason the changes are intended: exit 0 and record it in the report")
     p.set_defaults(func=cmd_compare)
 
-    p = sub.add_parser("check-release", help="re-hash release bundles; report changed, missing or extra files")
+    p = sub.add_parser("check-release", help="re-hash release bundles; report changed, missing or extra files "
+                       "(integrity against accidental change; with --digest or --against also against a record "
+                       "kept outside the bundle)")
     p.add_argument("bundles", nargs="+")
+    p.add_argument("--digest", metavar="SHA256", help="the bundle digest recorded when the bundle was released "
+                   "(printed by `compactgen release`); one bundle only")
+    p.add_argument("--against", metavar="PREVIOUS_BUNDLE", help="check PREVIOUS_BUNDLE against the record the "
+                   "(later) bundle kept of it when it was released with --against; one bundle only")
     p.set_defaults(func=cmd_check_release)
 
 
 def cmd_release(args) -> int:
-    make_release(args.card, args.release_version, args.output, against=args.against, accept=args.accept)
+    out = make_release(args.card, args.release_version, args.output, against=args.against, accept=args.accept)
+    print(f"released {out.path}\nbundle digest: {out.digest} (sha256 of {out.path / MANIFEST})\n"
+          f"Record this digest outside the bundle (release notes, ticket, signed tag): `compactgen check-release "
+          f"{out.path} --digest {out.digest}` then shows the bundle is the one released. The bundle's own hashes "
+          "only catch accidental change.")
     return 0
 
 
@@ -174,6 +198,14 @@ def _plot_specs(bundle_dir) -> dict[str, list[str]]:
 
 
 def cmd_check_release(args) -> int:
+    digest = None
+    if args.digest is not None:
+        digest = args.digest.strip().lower().removeprefix("sha256:")
+        if not re.fullmatch(r"[0-9a-f]{64}", digest):
+            raise InputError(f"--digest {args.digest!r}: expected 64 hexadecimal digits (the sha256 printed by "
+                             "`compactgen release`)")
+    if (digest or args.against) and len(args.bundles) != 1:
+        raise InputError(f"--digest and --against check one bundle; {len(args.bundles)} given")
     bad = 0
     for d in args.bundles:
         try:
@@ -184,7 +216,50 @@ def cmd_check_release(args) -> int:
             continue
         print(result.text())
         bad += not result.ok
+        if digest is not None:
+            if result.digest == digest:
+                print("  digest matches the one recorded at release: this is the bundle that was released")
+            else:
+                print(f"  DIGEST DIFFERS from the one recorded at release ({digest}): this is not the bundle "
+                      "that was released (changed and re-sealed, or another release)")
+                bad += 1
+        if args.against:
+            ok, text = check_previous(d, args.against)
+            print(text)
+            bad += not ok
+    if digest is None and not args.against:
+        print(INTEGRITY_ONLY)
     return 0 if not bad else 1
+
+
+def check_previous(bundle: str | Path, previous: str | Path) -> tuple[bool, str]:
+    """``previous`` against the record ``bundle`` kept of it when it was released with --against:
+    (matches, text).  A bundle without such a record, or one that recorded another release, is
+    an InputError."""
+    later = load_bundle(bundle, check=False).manifest
+    rec = later.get("comparison")
+    if not isinstance(rec, dict):
+        raise InputError(f"--against {previous}: {bundle} was released without --against and keeps no record of "
+                         "a previous release")
+    prev_check = check_bundle(previous)
+    prev = load_bundle(previous, check=False).manifest
+    label = f"{prev.get('name')} {prev.get('version')}"
+    if rec.get("against") != label:
+        raise InputError(f"--against {previous}: that is {label}, but {bundle} was compared against "
+                         f"{rec.get('against')} when it was released")
+    lines = [prev_check.text()]
+    if rec.get("against_digest"):
+        ok = rec["against_digest"] == prev_check.digest
+        recorded = f"digest {rec['against_digest']}"
+    else:  # bundles released before the digest was recorded kept the previous manifest's seal
+        ok = rec.get("against_manifest_sha256") == prev.get(SEAL) and not prev_check.manifest_problem
+        recorded = f"{SEAL} {rec.get('against_manifest_sha256')}"
+    if ok:
+        lines.append(f"  matches the record {bundle} kept of it ({recorded}): unchanged since that release")
+    else:
+        lines.append(f"  DIFFERS from the record {bundle} kept of it ({recorded}): changed after that release "
+                     "(and re-sealed, if it checks out as intact)")
+    return ok and prev_check.ok, "\n".join(lines)
 
 
 # ---- demo ---------------------------------------------------------------------------------------

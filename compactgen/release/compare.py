@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .. import bignum
 from ..errors import ReleaseError
 from .bundle import Bundle
 from .curves import CurveTable
@@ -112,13 +113,21 @@ def band_for(name: str, unit: str, rules=FIGURE_BANDS) -> Band:
 
 def _error(old, new, band: Band) -> float:
     """|new - old| / (atol + rtol |old|); 0 when both are missing, inf when one is."""
-    o = math.nan if old is None else float(old)
-    n = math.nan if new is None else float(new)
+    o = math.nan if old is None else old
+    n = math.nan if new is None else new
     if math.isnan(o) or math.isnan(n):
         return 0.0 if (math.isnan(o) and math.isnan(n)) else math.inf
-    d = abs(n - o)
-    if d == 0.0:
+    if bignum.is_overflow(o) or bignum.is_overflow(n):  # beyond the double range: judged by log10
+        lo, ln = bignum.log10_of(o), bignum.log10_of(n)
+        if lo == ln:
+            return 0.0
+        if band.log and not (math.isnan(lo) or math.isnan(ln)):
+            return abs(ln - lo) * bignum.LN10 / math.log(1 + band.rtol)
+        return math.inf
+    o, n = float(o), float(n)
+    if o == n:
         return 0.0
+    d = abs(n - o)
     if band.log:
         return abs(math.log(n / o)) / math.log(1 + band.rtol) if n > 0 and o > 0 else math.inf
     scale = band.atol + band.rtol * abs(o)
@@ -127,8 +136,8 @@ def _error(old, new, band: Band) -> float:
 
 # ---- rows ------------------------------------------------------------------------------------
 def rel_change(old: float | None, new: float | None) -> float | None:
-    """(new - old) / |old|, or None when either is missing or old is 0."""
-    if old is None or new is None or old == 0:
+    """(new - old) / |old|, or None when either is missing or not finite, or old is 0."""
+    if old is None or new is None or old == 0 or not (math.isfinite(old) and math.isfinite(new)):
         return None
     return (new - old) / abs(old)
 
@@ -214,6 +223,7 @@ class Comparison:
     curves: list[CurveRow]
     stimulus_changes: dict[str, str]
     accepted: str | None = None
+    sources: list[str] = field(default_factory=lambda: ["reference"])  # reference and simulators compared
 
     @property
     def breaks(self) -> list[InterfaceChange]:
@@ -427,15 +437,16 @@ def compare_figures(old: dict, new: dict) -> list[FigureRow]:
         unit = (b or a)["unit"]
         band = band_for(name, unit)
         desc = (b or a).get("desc", "")
+        va = None if a is None else bignum.from_record(a)
+        vb = None if b is None else bignum.from_record(b)
         if a is None:
-            rows.append(FigureRow("key figure", name, unit, None, b["value"], band, 0.0, "new", desc=desc))
+            rows.append(FigureRow("key figure", name, unit, None, vb, band, 0.0, "new", desc=desc))
             continue
         if b is None:
-            rows.append(FigureRow("key figure", name, unit, a["value"], None, band, math.inf, "REMOVED", desc=desc))
+            rows.append(FigureRow("key figure", name, unit, va, None, band, math.inf, "REMOVED", desc=desc))
             continue
-        err = _error(a["value"], b["value"], band)
-        rows.append(FigureRow("key figure", name, unit, a["value"], b["value"], band, err, _status(err),
-                              "model", desc))
+        err = _error(va, vb, band)
+        rows.append(FigureRow("key figure", name, unit, va, vb, band, err, _status(err), "model", desc))
     return rows
 
 
@@ -443,9 +454,16 @@ def _status(err: float) -> str:
     return "same" if err == 0 else ("within band" if err <= 1.0 else "OUTSIDE BAND")
 
 
-def compare_metrics(old: dict, new: dict, stimulus: dict[str, str]) -> list[FigureRow]:
+def compared_sources(old: dict, new: dict, simulators=None) -> list[str]:
+    """The reference, then the simulators both manifests hold (only those in ``simulators``
+    unless it is None)."""
+    common = [s for s in old.get("simulators", []) if s in new.get("simulators", [])]
+    return ["reference"] + [s for s in common if simulators is None or s in simulators]
+
+
+def compare_metrics(old: dict, new: dict, stimulus: dict[str, str], simulators=None) -> list[FigureRow]:
     bo, bn = old["benches"], new["benches"]
-    sources = ["reference"] + [s for s in old.get("simulators", []) if s in new.get("simulators", [])]
+    sources = compared_sources(old, new, simulators)
     rows = []
     for bench in list(bo) + [b for b in bn if b not in bo]:
         mo = bo.get(bench, {}).get("metrics", {})
@@ -471,7 +489,7 @@ def compare_metrics(old: dict, new: dict, stimulus: dict[str, str]) -> list[Figu
 
 
 def compare_curve_tables(bench: str, old: CurveTable, new: CurveTable, stimulus_note: str = "",
-                         observed: set[str] | None = None) -> CurveRow:
+                         observed: set[str] | None = None, sources: list[str] | None = None) -> CurveRow:
     """The columns of ``old`` against ``new`` interpolated onto the old grid over the common range.
 
     Compared: every terminal current; the states in ``observed`` (those the bench plots; all when
@@ -499,6 +517,8 @@ def compare_curve_tables(bench: str, old: CurveTable, new: CurveTable, stimulus_
     missing = [c for c in old.columns if c not in new.columns]
     for col, (unit, yo_all) in old.columns.items():
         if col in missing or not _judged(col, stimulus_note, observed):
+            continue
+        if sources is not None and ":" in col and col.split(":", 1)[0] not in sources:
             continue
         yo = yo_all[mask]
         yn = np.interp(grid, new.x, new.values(col))
@@ -536,7 +556,10 @@ def observed_states(plot: list[str]) -> set[str]:
     return {p.split(":", 1)[1] for p in plot if p.startswith("state:")}
 
 
-def compare_bundles(old: Bundle, new: Bundle, accepted: str | None = None) -> Comparison:
+def compare_bundles(old: Bundle, new: Bundle, accepted: str | None = None, simulators=None) -> Comparison:
+    """The comparison of two bundles.  ``simulators`` limits the sources compared besides the
+    reference (None: every simulator both bundles hold; (): the reference solutions only, which
+    are deterministic, unlike the last digits of simulator results)."""
     mo, mn = old.manifest, new.manifest
     for m, b in ((mo, old), (mn, new)):
         for key in ("parameters", "interface", "figures", "benches"):
@@ -549,6 +572,7 @@ def compare_bundles(old: Bundle, new: Bundle, accepted: str | None = None) -> Co
             if note:
                 stimulus[bench] = note
     params, n_params = compare_parameters(mo, mn)
+    sources = compared_sources(mo, mn, simulators)
     curves = []
     for bench in list(mo["benches"]) + [b for b in mn["benches"] if b not in mo["benches"]]:
         if bench not in mn["benches"]:
@@ -557,9 +581,9 @@ def compare_bundles(old: Bundle, new: Bundle, accepted: str | None = None) -> Co
             curves.append(CurveRow(bench, "new", note="bench added"))
         else:
             curves.append(compare_curve_tables(bench, old.curves(bench), new.curves(bench), stimulus.get(bench, ""),
-                                               observed_states(mn["benches"][bench].get("plot", []))))
+                                               observed_states(mn["benches"][bench].get("plot", [])), sources))
     return Comparison(
         old=old.label, new=new.label, old_version=mo["version"], new_version=mn["version"], kind=mn["kind"],
         params=params, n_params=n_params, interface=compare_interface(mo["interface"], mn["interface"]),
-        figures=compare_figures(mo, mn), metrics=compare_metrics(mo, mn, stimulus), curves=curves,
-        stimulus_changes=stimulus, accepted=accepted or None)
+        figures=compare_figures(mo, mn), metrics=compare_metrics(mo, mn, stimulus, simulators), curves=curves,
+        stimulus_changes=stimulus, accepted=accepted or None, sources=sources)

@@ -34,7 +34,8 @@ import numpy as np
 from compactgen.errors import SimulationError
 from compactgen.sim.rawfile import read_raw
 from compactgen.sim.tools import (
-    TAIL_LINES, exit_text, format_tail, ngspice_command, ngspice_shared, run_tool,
+    TAIL_LINES, check_not_stopping, exit_text, exit_with_parent, format_tail, ngspice_command, ngspice_shared,
+    register_child, run_tool, unregister_child,
 )
 
 __all__ = ["NgspiceWorker", "run_ngspice", "run_ngspice_batch", "run_ngspice_many"]
@@ -51,13 +52,19 @@ class NgspiceWorker:
     """A child process that owns one libngspice and runs decks on it, one at a time."""
 
     def __init__(self) -> None:
+        check_not_stopping("ngspice worker")
         library = ngspice_shared()
         context = multiprocessing.get_context(_START_METHOD)
         self._conn, child_conn = context.Pipe()
-        self._process = context.Process(target=_serve, args=(child_conn, library), daemon=True,
+        # only this process holds the write end: the child sees EOF on it when we are gone,
+        # however we ended (even SIGKILL), and exits then, busy or not
+        alive_r, self._alive = context.Pipe(duplex=False)
+        self._process = context.Process(target=_serve, args=(child_conn, library, alive_r), daemon=True,
                                         name="compactgen-ngspice")
         self._process.start()
         child_conn.close()
+        alive_r.close()
+        register_child(self._process)
 
     @property
     def pid(self) -> int | None:
@@ -114,9 +121,11 @@ class NgspiceWorker:
     def close(self) -> None:
         """Stop the child process (killing it if it is busy)."""
         self._conn.close()
+        self._alive.close()
         if self._process.is_alive():
             self._process.kill()
         self._process.join()
+        unregister_child(self._process)
 
     def __enter__(self) -> NgspiceWorker:
         return self
@@ -125,8 +134,9 @@ class NgspiceWorker:
         self.close()
 
 
-def _serve(conn: Connection, library: str) -> None:
+def _serve(conn: Connection, library: str, alive: Connection) -> None:
     """Child process: receive decks from ``conn``, run them, send output lines and results."""
+    exit_with_parent(alive)
     logging.getLogger("PySpice").setLevel(logging.CRITICAL)  # we report ngspice output ourselves
     from PySpice.Spice.NgSpice.Shared import NgSpiceCommandError, NgSpiceShared
 

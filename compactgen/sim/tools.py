@@ -10,6 +10,7 @@ import os
 import re
 import shutil
 import subprocess
+import threading
 from collections.abc import Callable, Iterable
 from importlib.util import find_spec
 from pathlib import Path
@@ -19,7 +20,7 @@ from compactgen.errors import SimulationError, SimulatorMissing
 __all__ = [
     "REQUIRE_ENV", "admsxml_command", "available", "exit_text", "format_tail", "linker_command",
     "ngspice_command", "ngspice_library", "ngspice_shared", "openvaf_command",
-    "require_simulators", "run_tool", "vacask_command",
+    "require_simulators", "resume_children", "run_tool", "stop_children", "vacask_command",
 ]
 
 REQUIRE_ENV = "COMPACTGEN_REQUIRE_SIMULATORS"
@@ -150,18 +151,100 @@ def exit_text(returncode: int) -> str:
     return f"signal {-returncode}" if returncode < 0 else f"exit code {returncode}"
 
 
+# ---- child processes -----------------------------------------------------------------------------
+# Every process compactgen starts (tools run by run_tool, ngspice workers) is registered here, so
+# that a command stopped by a signal can end them at once (stop_children) instead of leaving them
+# running on their own; after that, no new one starts until resume_children.
+_children_lock = threading.Lock()
+_children: set = set()  # objects with .kill() (subprocess.Popen, multiprocessing.Process)
+_stopping = threading.Event()
+
+
+def register_child(process) -> None:
+    """Track ``process`` (with a ``kill()`` method) until ``unregister_child``."""
+    with _children_lock:
+        if _stopping.is_set():
+            process.kill()
+            raise SimulationError("compactgen is stopping: no new simulator process is started")
+        _children.add(process)
+
+
+def unregister_child(process) -> None:
+    with _children_lock:
+        _children.discard(process)
+
+
+def check_not_stopping(what: str) -> None:
+    """Raise SimulationError instead of starting ``what`` while compactgen is stopping."""
+    if _stopping.is_set():
+        raise SimulationError(f"{what}: not started, compactgen is stopping")
+
+
+def stop_children() -> int:
+    """Kill every registered child process and refuse new ones; returns how many were killed."""
+    _stopping.set()
+    with _children_lock:
+        procs = list(_children)
+        _children.clear()
+    for process in procs:
+        try:
+            process.kill()
+        except (OSError, ValueError, AttributeError):
+            pass  # already gone
+    return len(procs)
+
+
+def resume_children() -> None:
+    """Allow child processes again (after stop_children, for a process that carries on)."""
+    _stopping.clear()
+
+
+def _forget_children() -> None:
+    """In a forked child: the parent's processes are not ours to kill."""
+    _children.clear()
+
+
+os.register_at_fork(after_in_child=_forget_children)
+
+
+def exit_with_parent(alive) -> None:
+    """In a child process: exit as soon as the parent's end of the pipe ``alive`` closes, which
+    happens however the parent ends (even SIGKILL), also while the child is busy.  The parent
+    keeps the write end of ``multiprocessing.Pipe(duplex=False)`` open for the child's lifetime
+    and never writes to it."""
+    def watch():
+        try:
+            alive.recv()
+        except (EOFError, OSError):
+            pass
+        os._exit(0)
+
+    threading.Thread(target=watch, name="compactgen-parent-watch", daemon=True).start()
+
+
 def run_tool(command: list[str], cwd: Path, timeout: float, what: str) -> tuple[int, str]:
     """Run ``command`` in ``cwd``; return its exit code and its merged output, colours removed.
 
-    On timeout the tool is killed and SimulationError names ``what`` and quotes its output.
+    On timeout the tool is killed and SimulationError names ``what`` and quotes its output; on
+    any other way out (an exception, a signal turned into one) it is killed too.
     """
+    check_not_stopping(what)
+    process = subprocess.Popen(command, cwd=cwd, stdin=subprocess.DEVNULL, stdout=subprocess.PIPE,
+                               stderr=subprocess.STDOUT, text=True, errors="replace")
     try:
-        done = subprocess.run(command, cwd=cwd, stdin=subprocess.DEVNULL, stdout=subprocess.PIPE,
-                              stderr=subprocess.STDOUT, timeout=timeout, text=True,
-                              errors="replace")
-    except subprocess.TimeoutExpired as exc:
-        output = exc.output.decode(errors="replace") if isinstance(exc.output, bytes) else ""
-        raise SimulationError(f"{what}: {Path(command[0]).name} did not finish within "
-                              f"{timeout:g} s and was killed\n"
-                              f"{format_tail(_ANSI.sub('', output))}") from None
-    return done.returncode, _ANSI.sub("", done.stdout)
+        register_child(process)
+        try:
+            output, _ = process.communicate(timeout=timeout)
+        except subprocess.TimeoutExpired:
+            process.kill()
+            output, _ = process.communicate()
+            raise SimulationError(f"{what}: {Path(command[0]).name} did not finish within "
+                                  f"{timeout:g} s and was killed\n"
+                                  f"{format_tail(_ANSI.sub('', output or ''))}") from None
+    except BaseException:
+        process.kill()
+        process.wait()
+        raise
+    finally:
+        unregister_child(process)
+    return process.returncode, _ANSI.sub("", output)
