@@ -381,7 +381,10 @@ class ReferenceModel:
             v -= step
             if not abs(step) > 1e-13 * (1.0 + abs(v)):  # also stops on NaN (a rejected trial stage)
                 break
-            i0 = current(v)
+            i1 = current(v)
+            if i1 != i0:  # secant update: the junction's I(V) is not linear (TMR falls with bias)
+                slope = (i1 - i0) / -step
+            i0 = i1
         else:
             if np.all(np.isfinite(y)):
                 raise RuntimeError(f"reference solver: current drive of {name} did not converge")

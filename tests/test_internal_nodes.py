@@ -17,7 +17,7 @@ from compactgen.reference import ReferenceModel
 def divider_ir(nodes=("mid",), probes=None, branches=None):
     """Two terminals a, b and an internal node mid: a resistor r from a to mid and a diode-like
     element i0 (exp(V/vt) - 1) from mid to b (a nonlinear KCL with a known solution)."""
-    table = ParamTable([ParamSpec("r", "ohm", 1e3, 1.0, 1e9, "series resistor"),
+    table = ParamTable([ParamSpec("r_ser", "ohm", 1e3, 1.0, 1e9, "series resistor"),
                         ParamSpec("i0", "A", 1e-9, 1e-15, 1.0, "saturation current"),
                         ParamSpec("v_slope", "V", 0.05, 0.01, 1.0, "slope voltage")])
     P = table.symbols()
@@ -30,7 +30,7 @@ def divider_ir(nodes=("mid",), probes=None, branches=None):
         voltages=probes or {v1: ("a", "mid"), v2: ("mid", "b")},
         temperature=sp.Symbol("temp_k", positive=True), locals=[],
         states=[State("x", x, -x / tsc, sp.Integer(0), "a dummy state")], time_scale=tsc,
-        branches=branches or [Branch("a", "mid", v1 / P["r"], "resistor"),
+        branches=branches or [Branch("a", "mid", v1 / P["r_ser"], "resistor"),
                               Branch("mid", "b", P["i0"] * (sp.exp(v2 / P["v_slope"]) - 1), "diode")],
         nodes=[Node(n, "") for n in nodes])
 
