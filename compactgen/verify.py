@@ -147,7 +147,10 @@ def _context(ir: ModelIR, bench: Bench) -> dict:
                temp_c=None if bench.temperature is None else format_number(bench.temperature - ZERO_CELSIUS))
     if bench.analysis == "dc":
         term, a, b, step = bench.sweep
-        ctx["sweep"] = dict(term=term, start=format_number(a), stop=format_number(b), step=format_number(step))
+        # a stop a millionth of a step beyond the last point: simulators accumulate the sweep value
+        # and drop a last point that lands a rounding error past the stop
+        ctx["sweep"] = dict(term=term, start=format_number(a), stop=format_number(b + 1e-6 * step),
+                            step=format_number(step))
     else:
         ctx.update(t_step=format_number(bench.t_step), t_stop=format_number(bench.t_stop),
                    max_step=format_number(bench.max_step))

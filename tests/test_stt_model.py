@@ -122,8 +122,8 @@ def test_example_card_passes_every_bench(example_suite):
     assert example_suite.passed, example_suite.table()
     names = {r.bench for r in example_suite.rows}
     assert {"rv_parallel", "rv_antiparallel", "hold_0.5ic0"} <= names
-    assert sum(n.startswith("write_to_p_") for n in names) == 3
-    assert sum(n.startswith("write_to_ap_") for n in names) == 3
+    assert {f"write_to_{d}_{k}ic0" for d in ("p", "ap") for k in ("1.5", "2", "3")} <= names
+    assert "write_to_p_2ic0_late" in names  # the same write long after the start (rest state)
 
 
 @pytest.mark.simulator

@@ -297,15 +297,20 @@ def stt_benches(ir, values: dict[str, float]) -> list[Bench]:
     benches: list[Bench] = []
     # R-V: the calibrated bias range, limited by j_max in the parallel (lowest-resistance) state
     v_lim = min(values["v_max"], values["j_max"] * values["ra"])
-    step = v_lim / 20
+    n = round(v_lim / 0.01)
+    if n >= 20 and abs(n * 0.01 - v_lim) < 1e-12:  # a 10 mV grid holds the read bias 0.1 V
+        step, n_read = 0.01, 10
+    else:
+        n, step, n_read = 20, v_lim / 20, 2
     sweep = ("t", -v_lim, v_lim, step)
-    points = [k * step for k in (-20, -2, 2, 10, 20)]
+    points = [k * step for k in (-n, -n_read, n_read, n // 2, n)]
     for state0, label in ((1.0, "parallel"), (-1.0, "antiparallel")):
         inst = {"state0": state0}
         ref = ReferenceModel(ir, inst)
         vs = Bench("x", "", "dc", {}, [], sweep=sweep).sweep_values()
         ref_i = ref.dc({"t": vs, "b": np.zeros_like(vs)}).currents
-        metrics = [Metric(f"R at {v:+.3g} V", "ohm", dc_resistance_at("t", "b", v), 1e-3, 0.0, WHY_R) for v in points]
+        metrics = [Metric(f"R at {v:+.2f} V" if step == 0.01 else f"R at {v:+.3g} V", "ohm",
+                          dc_resistance_at("t", "b", v), 1e-3, 0.0, WHY_R) for v in points]
         metrics.append(Metric("max |I/I_ref - 1| over sweep", "1", dc_curve_deviation_factory(ref_i, "t"),
                               0.0, 1e-3, WHY_R))
         benches.append(Bench(f"rv_{label}", f"R-V sweep {-v_lim:+.3g}..{v_lim:+.3g} V (calibrated range), {label} "
