@@ -61,10 +61,14 @@ def datasheet(card: Card, ir: ModelIR, figs: dict[str, float], ngspice_ctx: dict
         prm.append(dict(name=s.name, value=s.card_text(), range=s.range_text(s.card_unit), kind=s.kind,
                         desc=_cell(desc), source=_cell(s.source), stderr=s.card_text(stderr) if stderr else ""))
     # simulator settings: the step cap from the card's own precession period
+    from .devices.stt_mtj import corotating
+
+    corot = card.kind == "stt-mtj" and corotating(card.values)
+    n_pp = simopt.POINTS_PER_PERIOD_COROTATING if corot else simopt.POINTS_PER_PERIOD
     if "f_fmr" in figs and figs["f_fmr"] > 0:
         period = 1.0 / figs["f_fmr"]
-        step = dict(value=period / simopt.POINTS_PER_PERIOD, period=_si_time(period), f_fmr=f"{figs['f_fmr']:.4g} Hz",
-                    n=simopt.POINTS_PER_PERIOD, n25=_si_time(period / 25))
+        step = dict(value=period / n_pp, period=_si_time(period), f_fmr=f"{figs['f_fmr']:.4g} Hz",
+                    n=n_pp, n25=_si_time(period / 25), corotating=corot)
         step["text"] = _si_time(step["value"])
     else:
         step = dict(value=1e-12, text="1 ps", period="", f_fmr="", n=0, n25="")
@@ -82,7 +86,7 @@ def datasheet(card: Card, ir: ModelIR, figs: dict[str, float], ngspice_ctx: dict
         instance_params=[dict(name=s.name, default=format_number(s.default), desc=_cell(s.desc)) for s in inst],
         step=step, options=options, options_line=" ".join(f"{o['name']}={o['value']}" for o in options),
         vacask_options=simopt.VACASK_OPTIONS, vacask_why=simopt.VACASK_WHY, harness_options=simopt.HARNESS_OPTIONS,
-        measured=simopt.STEP_CAP_MEASURED,
+        measured=simopt.STEP_CAP_MEASURED_COROTATING if corot else simopt.STEP_CAP_MEASURED,
         figures=fig_rows, params=prm, outputs=ir.outputs, nodes=ir.nodes, tnom=tnom_text,
         ngspice_nodes=[{k: _cell(v) for k, v in r.items()} for r in ngspice_ctx["node_table"]],
         monitors=ngspice_ctx["monitors"], limits=render.range_limits(ir), range_output=ir.range_output(),

@@ -12,7 +12,8 @@ from compactgen import render
 from compactgen.build import build_files
 from compactgen.reference import figures
 from compactgen.sim import run_ngspice
-from compactgen.sim.options import DECK_OPTIONS, POINTS_PER_PERIOD
+from compactgen.sim.options import DECK_OPTIONS, POINTS_PER_PERIOD_COROTATING as POINTS_PER_PERIOD
+from compactgen.sim.options import POINTS_PER_PERIOD as POINTS_PER_PERIOD_LAB
 
 from helpers import ROOT, card_with, example_card
 
@@ -41,6 +42,11 @@ def test_step_cap_is_the_cards_own_precession_period_over_n(built):
     assert f2 > 1.5 * figures(ir)["f_fmr"]
     md2 = build_files(other)["stiff.md"]
     assert f"**Step cap {1e12 / (POINTS_PER_PERIOD * f2):.3g} ps**" in md2
+    # the default rest state integrates the stt free layer without its precession; with an in-plane
+    # field the precession is on the nodes and the cap resolves it
+    tilted = card_with("stt-mtj", "tilted", hx='"5 mT"')
+    f3 = figures(tilted.ir())["f_fmr"]
+    assert f"**Step cap {1e12 / (POINTS_PER_PERIOD_LAB * f3):.3g} ps**" in build_files(tilted)["tilted.md"]
 
 
 def test_options_of_the_designer_decks_are_the_ones_the_datasheet_states(built):
