@@ -194,9 +194,13 @@ def sot_benches(ir, values):
 
     def timing(tau):
         """Pulse width, trailing edge and settling time for a free layer relaxing in ``tau``: the edge
-        lasts FALL_TAUS relaxation times so the layer follows it into the well the current chose."""
-        return (float(np.clip(10.0 * tau, WIDTH, 50e-9)), float(np.clip(FALL_TAUS * tau, FALL, 100e-9)),
-                float(np.clip(3.0 * tau, 1.5e-9, 20e-9)))
+        lasts FALL_TAUS relaxation times so the layer follows it into the well the current chose --
+        or what the step budget leaves (a low-damping layer may then ring back: the bench set-up sees
+        that in the reference and reports it as a finding)."""
+        width = float(np.clip(10.0 * tau, WIDTH, 20e-9))
+        settle = float(np.clip(3.0 * tau, 1.5e-9, 10e-9))
+        room = 0.98 * POINT_BUDGET * tmax - DELAY - RISE - width - settle
+        return width, float(max(FALL, min(FALL_TAUS * tau, 100e-9, room))), settle
     benches: list[Bench] = []
     # the line sweep stays below j_max in the line
     v_line = min(0.5, 0.9 * values["j_max"] * cross * figs["r_line"])
@@ -237,8 +241,8 @@ def sot_benches(ir, values):
             reason = (f"{k:g} x J_c = {j / 1e10:.4g} MA/cm^2 in the line is beyond the calibrated limit "
                       f"j_max = {values['j_max'] / 1e10:.4g} MA/cm^2")
         elif t_stop / tmax > POINT_BUDGET:
-            reason = (f"a pulse the free layer can follow (relaxation time {tau_r * 1e9:.3g} ns, alpha = "
-                      f"{values['alpha']:.3g}) takes {t_stop * 1e9:.3g} ns: more than {POINT_BUDGET} time steps")
+            reason = (f"the shortest write bench (relaxation time {tau_r * 1e9:.3g} ns, alpha = {values['alpha']:.3g}) "
+                      f"takes {t_stop * 1e9:.3g} ns: more than {POINT_BUDGET} time steps of {tmax * 1e12:.3g} ps")
         if reason:
             return Bench(name, title, "tran", {}, [], instance=inst, temperature=temperature, not_applicable=reason)
         model = ReferenceModel(ir, inst, **kw)
@@ -259,7 +263,17 @@ def sot_benches(ir, values):
         from ..verify import reference_trace
 
         bench.cached_reference = tr = reference_trace(ir, bench)
-        if not np.isfinite(switching_time("mz", DELAY, int(final))(tr)):
+        if fall < 0.99 * FALL_TAUS * figs_t["tau_prec"]:
+            # an edge the layer cannot follow: where it lands after the pulse depends on the phase of its
+            # precession when the current ends, so integrators that agree to 1e-4 may part there
+            bench.metrics = [metrics[0]]
+            bench.finding = (f"the trailing edge ({fall * 1e9:.3g} ns) is shorter than {FALL_TAUS:g} relaxation times "
+                             f"({figs_t['tau_prec'] * 1e9:.3g} ns each; step budget): the end state after the pulse "
+                             "depends on the precession's phase at the edge and is not compared")
+            if not np.isfinite(metrics[0].func(tr)):
+                return Bench(name, title, "tran", {}, [], instance=inst, temperature=temperature, not_applicable=(
+                    f"the free layer does not cross m_z = 0 toward {final:+g} in the reference at {k:g} x J_c"))
+        elif not np.isfinite(switching_time("mz", DELAY, int(final))(tr)):
             bench.metrics = [metrics[1]]
             bench.metrics[0].expect = None
             bench.finding = (f"the free layer does not cross m_z = 0 toward {final:+g} in the reference at {k:g} x J_c "
@@ -289,7 +303,8 @@ def sot_benches(ir, values):
     # quasi-static threshold: a ramp slow against the relaxation time, to 1.5 J_c
     final = -1.0
     jsign = final * float(spin_orbit.switched_state(1, theta, hx))  # the current sign that writes m_z = final
-    ramp = float(np.clip(RAMP_TAUS * tau_r, RAMP, 200e-9))
+    ramp = float(np.clip(RAMP_TAUS * tau_r, RAMP, min(200e-9, 0.98 * POINT_BUDGET * tmax)))
+    slow = ramp >= RAMP_TAUS * tau_r  # slow enough for the exact-threshold expectation
     title = (f"quasi-static threshold: current ramped 0 -> 1.5 J_c in {ramp * 1e9:.3g} ns ({ramp / tau_r:.0f} relaxation "
              f"times); J at m_z = 0 against the exact torque balance J_c = {jc:.4g} A/m^2")
     inst = {"state0": -final}
@@ -304,12 +319,23 @@ def sot_benches(ir, values):
         model = ReferenceModel(ir, inst)
         drive = line_drive(model, jsign * 1.5 * jc * cross)
         drives = {n: (Pwl(((0.0, 0.0), (ramp, v))) if v else Dc(0.0)) for n, v in drive.items()}
-        exact = (values["xi_sot"] == 0 and values["hy"] == 0 and values["hz"] == 0)
-        benches.append(Bench(
+        exact = (values["xi_sot"] == 0 and values["hy"] == 0 and values["hz"] == 0) and slow
+        bench = Bench(
             "threshold_ramp", title, "tran", drives,
             [Metric("switching current density", "A/m^2",
                     current_at_crossing("mz", 0.0, int(final), "w1", jsign / cross), 5e-3, 0.0,
                     WHY_JSW + ("; " + WHY_JSW_EXPECT if exact else ""),
                     expect=(jc, 0.05 * jc) if exact else None)],
-            instance=inst, t_stop=ramp, t_step=1e-11, max_step=tmax, plot=("state:mz", "current:w1")))
+            instance=inst, t_stop=ramp, t_step=1e-11, max_step=tmax, plot=("state:mz", "current:w1"))
+        from ..verify import reference_trace
+
+        bench.cached_reference = tr = reference_trace(ir, bench)
+        if not np.isfinite(bench.metrics[0].func(tr)):
+            bench = Bench("threshold_ramp", title, "tran", {}, [], instance=inst, not_applicable=(
+                f"the free layer does not switch on a {ramp * 1e9:.3g} ns ramp to 1.5 x J_c in the reference "
+                f"({ramp / tau_r:.0f} relaxation times; the step budget allows no slower ramp)"))
+        elif not slow:
+            bench.finding = (f"the ramp lasts only {ramp / tau_r:.0f} relaxation times (step budget): it lags the "
+                             "quasi-static threshold, so the exact threshold is not asserted")
+        benches.append(bench)
     return benches

@@ -168,7 +168,7 @@ STEPS_PER_PERIOD = 25
 RISE = 50e-12
 DELAY = 0.1e-9
 #: longest transient a bench may need, in step caps (keeps one card's verify within a minute)
-POINT_BUDGET = 60_000
+POINT_BUDGET = 25_000
 
 
 #: steps per switching time where the free layer is integrated in its co-rotating frame
