@@ -581,6 +581,25 @@ class _Card:
         return {n: (Pulse(0.0, v, 0.0, rise, rise, 1.0) if v else Dc(0.0)) for n, v in lv.items()}
 
 
+def _sweep_limit(nominal: float, steps: int, *limits: float) -> float:
+    """The end of a symmetric DC sweep of ``steps`` steps per side: ``nominal``, or below the calibrated
+    ``limits`` a power-of-two multiple of ``steps`` (the sweep points are then exact binary numbers, so no
+    simulator's sweep loop loses its last point to rounding; measured: VACASK dropped +0.1043 V)."""
+    import math
+
+    top = min(limits)
+    if top >= nominal:
+        return nominal
+    return steps * 2.0 ** math.floor(math.log2(top / steps))
+
+
+def _decimals(step: float) -> int:
+    """Decimals that tell the points of a sweep with this step apart (2 for 0.05 V, as before)."""
+    import math
+
+    return max(2, -math.floor(math.log10(step)))
+
+
 def _na(name: str, title: str, reason: str, inst=None, temperature=None):
     from ..benches import Bench
 
@@ -672,9 +691,9 @@ def dw_benches(ir, values):
     benches: list[Bench] = []
     # ---- DC: line resistance and read-out against the slice integral, inside the calibrated range
     r_w2 = figs["r_line"] * (L - x_m - l_m / 2) / L
-    v_line = min(0.5, card.j_max * card.cross * figs["r_line"], card.v_max * figs["r_line"] / max(r_w2, 1e-300))
+    v_line = _sweep_limit(0.5, 10, card.j_max * card.cross * figs["r_line"], card.v_max * figs["r_line"] / r_w2)
     benches.append(line_resistance_bench(figs["r_line"], v_line))
-    v_read = min(0.2, card.v_max, card.j_max * card.cross * figs["r_p"])
+    v_read = _sweep_limit(0.2, 4, card.v_max, card.j_max * card.cross * figs["r_p"])
     for frac in (0.25, 0.5, 0.75):
         q0 = x_m + frac * l_m
         model = card.model({"wall0": q0})
@@ -683,7 +702,7 @@ def dw_benches(ir, values):
             ref = model.dc({"t": np.array([v]), "w1": np.zeros(1), "w2": np.zeros(1)})
             v_j = float(ref.voltages["t"][0] - ref.voltages["mid"][0])
             expect = slice_resistance(values, dw, q0, v_j)
-            metrics.append(Metric(f"R(t-mid) at {v:+.2f} V", "ohm", branch_resistance_at("t", "mid", v), 1e-3, 0.0,
+            metrics.append(Metric(f"R(t-mid) at {v:+.{_decimals(v_read / 4)}f} V", "ohm", branch_resistance_at("t", "mid", v), 1e-3, 0.0,
                                   WHY_SLICES, expect=(expect, 1e-6 * expect)))
         benches.append(Bench(f"read_q{int(frac * 100)}", f"junction read with the wall {frac:g} of the way along the "
                              f"junction (q = {q0 * 1e9:.1f} nm): t swept {-v_read:.3g}..{v_read:.3g} V", "dc", {},
