@@ -427,10 +427,12 @@ def _settling(st, phi0: float, v: float, rise: float):
     gap = st.phi - phi0
     path = np.linspace(phi0, st.phi, 401)
     tau_min = float(min(np.min(w.tau(path)), st.tau))
-    v_fast = float(np.max(np.abs(w.qdot(path))))
     slope = abs(float(w.dqdot(st.phi)))
     delta = abs(gap) if slope == 0 else min(SETTLE_REL * abs(v) / slope, abs(gap))
-    out = SimpleNamespace(t=rise, tau_min=tau_min, ahead=v_fast * rise, behind=v_fast * rise)
+    # while the drive ramps up the wall moves no faster than it does along the path at full drive
+    along_v = np.sign(v) * w.qdot(path)
+    out = SimpleNamespace(t=rise, tau_min=tau_min, ahead=max(0.0, float(along_v.max())) * rise,
+                          behind=max(0.0, -float(along_v.min())) * rise)
     if delta >= abs(gap):
         return out
     end = st.phi - np.sign(gap) * delta
@@ -679,9 +681,10 @@ def _steady_bench(card: _Card, name: str, title: str, inst: dict, j: float, expe
         start = max(start_frac * L, room[0] + behind) if v > 0 else min((1 - start_frac) * L, room[1] - behind)
         avail = room[1] - start if v > 0 else start - room[0]
     if room is None or need > avail:
-        return _na(name, title, f"the track is too short: at {v:.4g} m/s the wall travels about {_x(need)} while its "
-                   f"angle settles ({_t(t_settle)}) and its speed is measured, but only {_x(max(avail, 0.0))} of the "
-                   f"{_x(L)} track lie clear of the edge barriers ahead of it", inst, temperature)
+        back = f"first falls {_x(behind)} back, then " if behind > 0 else ""
+        return _na(name, title, f"the track is too short: at {v:.4g} m/s the wall {back}travels about {_x(need)} while "
+                   f"its angle settles ({_t(t_settle)}) and its speed is measured, but only {_x(max(avail, 0.0))} of "
+                   f"the {_x(L)} track lie clear of the edge barriers ahead of it", inst, temperature)
     inst = dict(inst, wall0=start)
     model = card.model(inst, temperature)
     drives = card.drives(model, j) if j else {}
