@@ -127,6 +127,11 @@ class Bench:
     finding: str = ""
     #: the reference trace, when the set-up already computed it (verify reuses it)
     cached_reference: object = field(default=None, repr=False, compare=False)
+    #: reference solver only: largest integration step and output grid spacing [s]; 0 keeps the
+    #: defaults (5 x the model's time scale, 0.5 ps) -- for benches whose own time scales are far
+    #: from the model's (a slow domain wall: microseconds at 0.5 ps would be millions of points)
+    ref_max_step: float = 0.0
+    ref_grid: float = 0.0
 
     def sweep_values(self) -> np.ndarray:
         term, a, b, step = self.sweep

@@ -203,8 +203,8 @@ def reference_trace(ir: ModelIR, bench: Bench) -> Trace:
         vs = bench.sweep_values()
         node_v = {t.name: (vs if t.name == term else np.zeros_like(vs)) for t in ir.terminals}
         return model.dc(node_v)
-    grid = np.linspace(0.0, bench.t_stop, int(round(bench.t_stop / 0.5e-12)) + 1)
-    return model.transient(bench.drives, bench.t_stop, t_eval=grid)
+    grid = np.linspace(0.0, bench.t_stop, int(round(bench.t_stop / (bench.ref_grid or 0.5e-12))) + 1)
+    return model.transient(bench.drives, bench.t_stop, t_eval=grid, max_step=bench.ref_max_step or None)
 
 
 # ---- the suite --------------------------------------------------------------------------------

@@ -74,17 +74,25 @@ WHY_DC = ("DC operating point with an internal node: only the Newton tolerance (
 WHY_RLINE = WHY_DC + "; every run must give rho L/(w t) (PHYSICS 10) to 1e-6"
 
 
-def line_resistance_bench(r_line: float, v_span: float = 0.5):
-    """DC bench: w1 swept -v_span..v_span with w2 and t at 0 V; the line resistance from the port
-    currents and the junction node's voltage must be rho L/(w t)."""
+def line_resistance_bench(r_line: float, v_lim: float = 0.5):
+    """DC bench: w1 swept -v_lim..v_lim (default 0.5 V; a kind may lower it to its calibrated
+    range) with w2 and t at 0 V; the line resistance from the port currents and the junction node's
+    voltage must be rho L/(w t)."""
     from ..benches import Bench, Metric, line_resistance_at
 
     step = v_span / 10
     return Bench(
-        "line_r", f"write-line resistance: w1 swept {-v_span:+.3g}..{v_span:+.3g} V, w2 = t = 0", "dc", {},
-        [Metric(f"R(w1-w2) at {v:+.3g} V", "ohm", line_resistance_at("w1", "w2", "mid", v), 1e-3, 0.0, WHY_RLINE,
-                expect=(r_line, 1e-6 * r_line)) for v in (-10 * step, 2 * step, 10 * step)],
-        sweep=("w1", -v_span, v_span, step), plot=("resistance",))
+        "line_r", f"write-line resistance: w1 swept {-v_lim:.3g}..{v_lim:.3g} V, w2 = t = 0", "dc", {},
+        [Metric(f"R(w1-w2) at {v:+.{_digits(v_lim)}f} V", "ohm", line_resistance_at("w1", "w2", "mid", v), 1e-3, 0.0,
+                WHY_RLINE, expect=(r_line, 1e-6 * r_line)) for v in (-v_lim, 0.2 * v_lim, v_lim)],
+        sweep=("w1", -v_lim, v_lim, v_lim / 10), plot=("resistance",))
+
+
+def _digits(v: float) -> int:
+    """Decimals that show a sweep point of a sweep up to ``v`` (2 for 0.5 V, as before)."""
+    import math
+
+    return max(2, 1 - math.floor(math.log10(0.2 * v)))
 
 
 CONVENTIONS = [

@@ -81,6 +81,21 @@ def wall_rates(a, b, alpha, width, charge=1):
     return charge * width * (b + alpha * a) / (1 + alpha**2), (a - alpha * b) / (1 + alpha**2)
 
 
+
+def angle_relaxation_time(a, b, alpha, phi):
+    """Time constant of the wall angle about a steady angle  [s] (evaluate at that angle):
+    with the drive uniform along the track (no pinning gradient), dphi/dt = (A - alpha B)/(1 + alpha^2)
+    of ``wall_rates`` depends on phi alone, so a small deviation from a steady angle decays as
+    exp(-t/tau) with
+
+        tau = (1 + alpha^2) / |d(A - alpha B)/dphi|.
+
+    Without current A = gamma0 H_z does not depend on phi and tau = (1 + alpha^2)/(alpha gamma0 |b'|),
+    b = B/gamma0 the restoring torque of H_K, H_D and H_x; about a Neel rest angle
+    |b'| = (pi/2)|Q H_D - H_x| - H_K, about an intermediate one H_K sin^2 phi_0 (PHYSICS 6.2, derived by
+    linearising the 1D model of A. Thiaville et al., EPL 100, 57002 (2012); volume/page from memory)."""
+    return (1 + alpha**2) / sp.Abs(sp.diff(a - alpha * b, phi))
+
 # ---- pinning landscape (energies per unit wall area; the field is their derivative) ------------
 def periodic_pinning_energy(q, ms, h_dep, pitch):
     """sigma_pin(q) = (2 mu0 Ms H_dep pitch/pi) (1 - cos(2 pi q/pitch))/2  [J/m^2]: a smooth
