@@ -228,6 +228,8 @@ class ReferenceModel:
         if not self.nodes or all(k in node_v for k in self.nodes):
             return node_v
         tv = [node_v[t] for t in self.terminals]
+        if isinstance(y, np.ndarray) and y.ndim == 1 and all(isinstance(v, float) for v in tv):
+            return self._solve_nodes_scalar(node_v, tv, y)
         if all(np.ndim(v) == 0 for v in (*tv, *y)):
             return self._solve_nodes_scalar(node_v, tv, y)
         n = len(self.nodes)
@@ -262,6 +264,8 @@ class ReferenceModel:
     def _solve_nodes_scalar(self, node_v, tv, y):
         """solve_nodes for one operating point (the integrator's case): plain floats, no arrays."""
         n = len(self.nodes)
+        if n == 1:  # one internal node (a write line under a junction): the integrator's hot path
+            return self._solve_one_node(node_v, tv, y)
         guess = self._node_guess
         x = list(guess) if guess is not None and np.shape(guess) == (n,) else [0.0] * n
         tol = 1e-13 * (1.0 + max(abs(float(v)) for v in tv))
@@ -282,6 +286,29 @@ class ReferenceModel:
         self._node_guess = np.array(x) if all(np.isfinite(x)) else None
         out = dict(node_v)
         out.update({name: float(x[i]) for i, name in enumerate(self.nodes)})
+        return out
+
+    def _solve_one_node(self, node_v, tv, y):
+        guess = self._node_guess
+        x = float(guess[0]) if guess is not None and np.shape(guess) == (1,) else 0.0
+        tol = 1e-13 * (1.0 + max(abs(float(v)) for v in tv))
+        kcl = self._kcl
+        for _ in range(60):
+            f, jac = kcl(*tv, x, *y)
+            dx = f / jac
+            x -= dx
+            if not abs(dx) > tol:
+                break
+        if not np.isfinite(x):
+            if all(np.isfinite(v) for v in (*tv, *y)):
+                raise RuntimeError(f"reference solver: KCL at internal node {self.nodes[0]} did not converge")
+            self._node_guess = None
+        elif abs(dx) > tol:
+            raise RuntimeError(f"reference solver: KCL at internal node {self.nodes[0]} did not converge")
+        else:
+            self._node_guess = np.array([x])
+        out = dict(node_v)
+        out[self.nodes[0]] = float(x)
         return out
 
     # ---- evaluation --------------------------------------------------------------------

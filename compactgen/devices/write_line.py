@@ -80,7 +80,6 @@ def line_resistance_bench(r_line: float, v_lim: float = 0.5):
     voltage must be rho L/(w t)."""
     from ..benches import Bench, Metric, line_resistance_at
 
-    step = v_span / 10
     return Bench(
         "line_r", f"write-line resistance: w1 swept {-v_lim:.3g}..{v_lim:.3g} V, w2 = t = 0", "dc", {},
         [Metric(f"R(w1-w2) at {v:+.{_digits(v_lim)}f} V", "ohm", line_resistance_at("w1", "w2", "mid", v), 1e-3, 0.0,
