@@ -131,6 +131,10 @@ class Bench:
     #: defaults (5 x the model's time scale, 0.5 ps) -- for benches whose own time scales are far
     #: from the model's (a slow domain wall: microseconds at 0.5 ps would be millions of points)
     ref_max_step: float = 0.0
+    #: reference solver only: scipy integration method ("" = DOP853); "Radau" for a stiff bench
+    #: without fast motion (the co-rotating free layer: its sphere-restoring term, not its motion,
+    #: limits an explicit method's step)
+    ref_method: str = ""
     ref_grid: float = 0.0
 
     def sweep_values(self) -> np.ndarray:

@@ -431,7 +431,7 @@ class ReferenceModel:
                      states={s.name: yy for s, yy in zip(self.ir.states, y)})
 
     def transient(self, drives: dict, t_end: float, t_eval: np.ndarray | None = None,
-                  rtol: float = 1e-10, atol: float = 1e-12, max_step: float | None = None,
+                  rtol: float = 1e-10, atol: float = 1e-12, max_step: float | None = None, method: str = "DOP853",
                   currents: dict | None = None) -> Trace:
         """Integrate with every terminal driven by a voltage waveform (objects with
         ``value(t)`` and ``breakpoints(t_end)``); unlisted terminals are at 0 V.  ``currents`` maps
@@ -469,7 +469,7 @@ class ReferenceModel:
             if b - a <= 0:
                 continue
             with np.errstate(over="ignore", invalid="ignore"):  # rejected trial steps may overflow
-                sol = solve_ivp(f, (a, b), y, method="DOP853", rtol=rtol, atol=atol, dense_output=True,
+                sol = solve_ivp(f, (a, b), y, method=method, rtol=rtol, atol=atol, dense_output=True,
                                 max_step=step)
             if not sol.success:
                 raise RuntimeError(f"reference solver failed on [{a:.3e}, {b:.3e}] s: {sol.message}")
@@ -496,7 +496,7 @@ class ReferenceModel:
         self.check_range(nv, list(yy))
         return Trace(t=t, voltages=nv, currents={k: np.broadcast_to(v, t.shape).astype(float) for k, v in cur.items()},
                      states={s.name: yy[i] for i, s in enumerate(self.ir.states)},
-                     info={"method": "DOP853", "rtol": rtol, "atol": atol})
+                     info={"method": method, "rtol": rtol, "atol": atol})
 
 
 def isclose_rel(a: float, b: float, rel: float) -> bool:

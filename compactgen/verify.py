@@ -207,7 +207,7 @@ def reference_trace(ir: ModelIR, bench: Bench) -> Trace:
     grid = np.linspace(0.0, bench.t_stop, int(round(bench.t_stop / (bench.ref_grid or 0.5e-12))) + 1)
     # rtol 1e-9: a thousand times tighter than any bench tolerance, a quarter fewer steps than 1e-10
     return model.transient(bench.drives, bench.t_stop, t_eval=grid, max_step=bench.ref_max_step or None,
-                           rtol=REFERENCE_RTOL, atol=1e-11)
+                           rtol=REFERENCE_RTOL, atol=1e-11, method=bench.ref_method or "DOP853")
 
 
 # ---- the suite --------------------------------------------------------------------------------

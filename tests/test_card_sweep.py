@@ -53,9 +53,9 @@ def test_a_write_beyond_the_bias_limit_is_not_applicable_not_a_crash() -> None:
     assert result.passed and result.exit_status == 4
 
 
-@pytest.mark.parametrize("alpha", [1e-4, 2e-3])
-def test_low_damping_stays_within_the_step_budget(alpha: float) -> None:
-    for kind in ("stt-mtj", "sot-mtj"):
+@pytest.mark.parametrize("kind, alpha", [("stt-mtj", 1e-4), ("sot-mtj", 2e-3)])
+def test_low_damping_stays_within_the_step_budget(kind: str, alpha: float) -> None:
+    for _ in (1,):
         card = _starter_with(kind, alpha=alpha)
         ir = card.ir()
         for b in card.device.benches(ir, card.values):

@@ -276,6 +276,8 @@ class WritePlan:
         b = Bench(name, f"{title} ({abs(self.current) * 1e6:.4g} uA, {self.v:+.4g} V)", "tran",
                   {"t": self.pulse(), "b": Dc(0.0)}, self.metrics(expect_tsw), instance={"state0": self.start},
                   t_stop=self.t_stop, t_step=1e-11, max_step=self.cap, plot=plot, temperature=self.temperature)
+        if self.cap > step_cap(1.0 / self.period):  # co-rotating: no precession for the reference to follow
+            b.ref_max_step, b.ref_grid, b.ref_method = self.cap, max(0.5e-12, self.cap / 20), "Radau"
         b.cached_reference = getattr(self, "trace", None)
         return b
 
