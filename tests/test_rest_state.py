@@ -144,7 +144,7 @@ def test_write_at_2_ns_and_200_ns_in_every_simulator(stt, ngspice, vacask) -> No
         assert late.reference == pytest.approx(early.reference, rel=1e-6)
 
 
-@pytest.mark.parametrize("kind", ["stt-mtj", "sot-mtj"])
+@pytest.mark.parametrize("kind", ["stt-mtj", "sot-mtj", "dw-mtj"])
 def test_starter_cards_verify_cleanly_in_the_reference(kind) -> None:
     """A starter card is an example of good practice: every bench applies and passes, and no bench
     drives it outside its own calibrated range."""

@@ -44,6 +44,15 @@ MIN_TRACK_WIDTHS = 10
 VARIED = (("ra", +1, 0.03, 0.015), ("tmr0", -1, 0.03, 0.015), ("theta_sh", -1, 0.05, 0.02),
           ("h_dep", +1, 0.1, 0.05), ("rho_hm", +1, 0.03, 0.01))
 
+#: starter-card values of a track (illustrative, no source): a well-damped Pt/Co-like wall that settles
+#: within its 500 nm track, so every bench of `compactgen init dw-mtj` applies (the shared free-layer
+#: defaults describe a low-damping CoFeB pillar, whose wall would need microns to settle)
+STARTER = {"alpha": 0.25, "t_free": 0.9 * NM, "ms": 0.95e6, "ki": 0.9e-3, "dmi": 0.8e-3, "a_ex": 12e-12,
+           "track_width": 60 * NM, "mtj_start": 150 * NM, "mtj_length": 200 * NM, "h_dep": 10 * MT,
+           "pin_pitch": 25 * NM, "theta_sh": 0.12, "rho_hm": 40e-8, "t_hm": 4 * NM, "ra": 20e-12, "v_max": 0.5,
+           "j_max": 3e12}
+
+
 @register
 class DwMtj(DeviceKind):
     key = "dw-mtj"
@@ -100,8 +109,9 @@ class DwMtj(DeviceKind):
         ]
         fields = [s for s in track if s.group == "fields"]
         track = [s for s in track if s.group != "fields"]
-        return (track + geo + fields + mtj_read_specs() + mtj + heavy_metal_specs() + pin
-                + limit_specs(v_max=1.0, j_max=5e12) + inst + variation_specs(VARIED))
+        specs = (track + geo + fields + mtj_read_specs() + mtj + heavy_metal_specs() + pin
+                 + limit_specs(v_max=1.0, j_max=5e12) + inst + variation_specs(VARIED))
+        return [dataclasses.replace(s, default=STARTER[s.name]) if s.name in STARTER else s for s in specs]
 
     def build_ir(self, name, values, options) -> ModelIR:
         table = self.table_with(values)
