@@ -93,8 +93,8 @@ def _thin_film_hk_eff(ki, ms, t_free):
       "positive", "ki = 0.2 mJ/m^2", "ms = 1 MA/m", "t_free = 1.3 nm", "demag_nz = 1"]),
     ("dw-mtj", {'wall0 = "': 'wall0 = "600 nm"'},
      ["wall0 = 600 nm must lie inside the track (at most track_length = 500 nm)"]),
-    ("dw-mtj", {'mtj_length = "': 'mtj_length = "450 nm"'},
-     ["the junction (mtj_start = 200 nm + mtj_length = 450 nm) must lie inside the track (track_length = 500 nm)"]),
+    ("dw-mtj", {'mtj_length = "': 'mtj_length = "400 nm"'},
+     ["the junction (mtj_start = 150 nm + mtj_length = 400 nm) must lie inside the track (track_length = 500 nm)"]),
 ])
 def test_cross_parameter_refusal_names_values_units_and_relation(tmp_path, kind, edits, expected):
     lines = []

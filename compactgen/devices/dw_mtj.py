@@ -49,8 +49,7 @@ VARIED = (("ra", +1, 0.03, 0.015), ("tmr0", -1, 0.03, 0.015), ("theta_sh", -1, 0
 #: defaults describe a low-damping CoFeB pillar, whose wall would need microns to settle)
 STARTER = {"alpha": 0.25, "t_free": 0.9 * NM, "ms": 0.95e6, "ki": 0.9e-3, "dmi": 0.8e-3, "a_ex": 12e-12,
            "track_width": 60 * NM, "mtj_start": 150 * NM, "mtj_length": 200 * NM, "h_dep": 10 * MT,
-           "pin_pitch": 25 * NM, "theta_sh": 0.12, "rho_hm": 40e-8, "t_hm": 4 * NM, "ra": 20e-12, "v_max": 0.5,
-           "j_max": 3e12}
+           "pin_pitch": 25 * NM, "theta_sh": 0.12, "rho_hm": 40e-8, "t_hm": 4 * NM, "ra": 20e-12, "v_max": 0.5}
 
 
 @register
