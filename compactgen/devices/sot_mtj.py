@@ -156,6 +156,9 @@ WHY_FINAL = ("mean m_z over the last precession period after the pulse: the free
              "(within half its rest m_z)")
 WHY_JSW = ("the current is a slow ramp, so a shift of the escape time by the simulators' 1e-3 timing errors "
            "moves the switching current by far less than 0.5 %")
+WHY_JSW_FAST = ("a ramp shortened by the step budget crosses the threshold within a few relaxation times, like a "
+                "write pulse: the crossing time carries the write benches' 1 % timing tolerance, and J with it "
+                "(measured: 0.6 % between VACASK and the reference on a 16-relaxation-time ramp)")
 WHY_JSW_EXPECT = ("every run must meet the exact torque-balance threshold within 5 %: a 20 ns ramp lags the "
                   "saddle-node bifurcation at the threshold: measured +2.4 % in the "
                   "reference for the example (+1.4 % for 40 ns, +4.1 % for 10 ns); 5 % bound")
@@ -324,8 +327,8 @@ def sot_benches(ir, values):
         bench = Bench(
             "threshold_ramp", title, "tran", drives,
             [Metric("switching current density", "A/m^2",
-                    current_at_crossing("mz", 0.0, int(final), "w1", jsign / cross), 5e-3, 0.0,
-                    WHY_JSW + ("; " + WHY_JSW_EXPECT if exact else ""),
+                    current_at_crossing("mz", 0.0, int(final), "w1", jsign / cross), 5e-3 if slow else 1e-2, 0.0,
+                    (WHY_JSW if slow else WHY_JSW_FAST) + ("; " + WHY_JSW_EXPECT if exact else ""),
                     expect=(jc, 0.05 * jc) if exact else None)],
             instance=inst, t_stop=ramp, t_step=1e-11, max_step=tmax, plot=("state:mz", "current:w1"))
         from ..verify import reference_trace
