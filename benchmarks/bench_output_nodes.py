@@ -9,7 +9,7 @@ next to the others under the model's name), e.g. one whose only output node was 
     PYTHONPATH=. python3 benchmarks/bench_output_nodes.py [--card examples/pmtj35_demo.toml]
         [--bench write_to_p_2ic0] [--repeat 15] [--previous OLD/NAME.lib]
 
-Pin ngspice's OpenMP threads first (a .spiceinit with `set num_threads=1` in the working folder).
+ngspice runs through compactgen.sim, which pins its OpenMP threads to one (`set num_threads=1`).
 """
 from __future__ import annotations
 

@@ -14,7 +14,7 @@ itself (here 10 ps, about 1/8 of the period) and VACASK at its own default.
     PYTHONPATH=. python3 benchmarks/bench_step_cap.py [--card examples/pmtj35_demo.toml]
         [--points 10,25,50,100,0] [--repeat 3] [--reltol 1e-4] [--chgtol default]
 
-Pin ngspice's OpenMP threads first (a .spiceinit with `set num_threads=1` in the working folder).
+ngspice runs through compactgen.sim, which pins its OpenMP threads to one (`set num_threads=1`).
 """
 from __future__ import annotations
 

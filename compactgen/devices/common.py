@@ -121,9 +121,10 @@ def orientation_specs() -> list[ParamSpec]:
                   "initial orientation: +1 parallel (m_z = +1), -1 antiparallel (sign is taken)", kind="instance",
                   group=g),
         ParamSpec("thermal_rest", "1", 1.0, 0.0, 1.0,
-                  "1: the free layer rests at its thermal angle exp(-gamma_E/2)/sqrt(Delta(T)) from the axis, held "
-                  "there by an equivalent in-plane field, so a write does not depend on when it comes; 0: no hold, "
-                  "the free layer starts at tilt0 and relaxes toward the axis (plain deterministic LLG)",
+                  "1: the free layer starts at rest and stays there, so a write does not depend on when it comes "
+                  "(stt-mtj: at its thermal angle exp(-gamma_E/2)/sqrt(Delta(T)) from the axis; with an in-plane "
+                  "field: its static equilibrium in that field); 0: plain deterministic LLG from tilt0, relaxing "
+                  "toward the axis",
                   kind="instance", group=g),
         ParamSpec("tilt0", "rad", 0.0, 0.0, 1.5,
                   "initial angle of the free layer from its axis when thermal_rest = 0 (0 = exactly on the axis: "
@@ -267,7 +268,7 @@ def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p, extra_torques=(), ax
         # drift rate whose fixed point is the thermal rest angle (zero field along z), regularised
         # inside a tenth of that angle
         eps2 = parts.d("cone_eps2", s_th2 / 100)
-        pull = parts.d("cone_pull", P["alpha"] * gamma0 / (1 + P["alpha"] ** 2) * fl["hk_eff_t"])
+        pull = parts.d("cone_pull", macrospin.damping_pull_rate(P["alpha"], fl["hk_eff_t"]))
         rate = parts.d("cone_rate", sym * pull * (s_th2 + eps2))
         rhs = rhs + macrospin.thermal_cone_drift(m, rate, eps2)
     rhs = rhs + macrospin.sphere_restoring(m, 1 / fl["tsc"])
@@ -276,10 +277,8 @@ def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p, extra_torques=(), ax
     h_ip = sp.sqrt(P["hx"] ** 2 + P["hy"] ** 2)
     s_eq, _ = anisotropy.tilted_rest_state(fl["hk_eff_t"], h_ip, fl["sgn0"] * P["hz"])
     if axial:
-        ratio = (s_th2 + eps2) * fl["hk_eff_t"]
-        s2_0 = ratio / (fl["hk_eff_t"] + fl["sgn0"] * P["hz"]) - eps2
-        s2_1 = ratio / (fl["hk_eff_t"] + fl["sgn0"] * P["hz"] / sp.sqrt(1 - s2_0)) - eps2
-        s_eq = sp.Piecewise((sp.sqrt(s2_1), sym > 0), (s_eq, True))
+        s2_rest = macrospin.cone_rest_sin2(fl["hk_eff_t"], fl["sgn0"] * P["hz"], s_th2, eps2)
+        s_eq = sp.Piecewise((sp.sqrt(s2_rest), sym > 0), (s_eq, True))
     s_rest = parts.d("sin_rest", s_eq)
     h_ip_safe = sp.sqrt(P["hx"] ** 2 + P["hy"] ** 2 + sp.Float(1e-30))  # finite where there is no field
     ux = parts.d("ux_rest", sp.Piecewise((1, sp.Eq(h_ip, 0)), (P["hx"] / h_ip_safe, True)))

@@ -186,7 +186,7 @@ def sot_benches(ir, values):
                            settled_value, switching_time)
     from ..reference import ReferenceModel, figures
     from ..constants import ZERO_CELSIUS
-    from .stt_mtj import BENCH_TEMPERATURES_C, POINT_BUDGET, step_cap
+    from .stt_mtj import BENCH_TEMPERATURES_C, POINT_BUDGET, rest_mz, step_cap
     from .write_line import line_drive
 
     figs = figures(ir)
@@ -223,11 +223,6 @@ def sot_benches(ir, values):
                              instance={"state0": state0, "thermal_rest": 0.0, "tilt0": 0.0},
                              sweep=sweep, plot=("resistance",)))
 
-    def rest_mz(inst, temperature=None):
-        kw = {} if temperature is None else {"temperature": temperature}
-        m = ReferenceModel(ir, inst, **kw)
-        return float(m.initial[[st.name for st in ir.states].index("mz")])
-
     def write(name, title, k, jsign, inst, temperature=None, plot=("state:mz", "current:w1")):
         kw = {} if temperature is None else {"temperature": temperature}
         figs_t = figures(ir, temperature=temperature) if temperature is not None else figs
@@ -252,7 +247,7 @@ def sot_benches(ir, values):
         model = ReferenceModel(ir, inst, **kw)
         drive = line_drive(model, jsign * j * cross)
         drives = {n: (Pulse(0.0, v, DELAY, RISE, fall, width) if v else Dc(0.0)) for n, v in drive.items()}
-        mz_end = rest_mz(dict(inst, state0=final), temperature)
+        mz_end = rest_mz(ir, final, temperature, inst)
         metrics = [
             Metric("switching time", "s", switching_time("mz", DELAY, int(final)), 1e-2, 0.0, WHY_TSW),
             Metric("final m_z", "1", settled_value("mz", period), 0.0, 0.02, WHY_FINAL,

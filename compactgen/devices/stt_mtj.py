@@ -16,7 +16,7 @@ from scipy.optimize import brentq
 from ..benches import (Bench, Dc, Metric, Pulse, crossing_time, dc_curve_deviation_factory, dc_resistance_at,
                        extreme_value, settled_value, switching_time)
 from ..ir import Branch, Figure, ModelIR, Output, Terminal
-from ..physics import macrospin, switching, thermal, torques, tunnelling
+from ..physics import geometry, macrospin, switching, thermal, torques, tunnelling
 from ..constants import ZERO_CELSIUS
 from ..physics.constants import const_values
 from ..reference import ReferenceModel, figures
@@ -200,10 +200,11 @@ def bias_for_current(model: ReferenceModel, current: float, v_limit: float) -> f
     return float(brentq(f, 0.0, sign * v_limit, xtol=1e-15, rtol=1e-14))
 
 
-def rest_mz(ir, state0: float, temperature: float | None = None) -> float:
-    """m_z of the free layer at rest in the well of ``state0`` (thermal rest state)."""
+def rest_mz(ir, state0: float, temperature: float | None = None, overrides: dict | None = None) -> float:
+    """m_z of the free layer at rest in the well of ``state0`` (thermal rest state), with further
+    instance/model ``overrides``."""
     kw = {} if temperature is None else {"temperature": temperature}
-    m = ReferenceModel(ir, {"state0": state0}, **kw)
+    m = ReferenceModel(ir, dict(overrides or {}, state0=state0), **kw)
     return float(m.initial[[s.name for s in ir.states].index("mz")])
 
 
@@ -222,7 +223,7 @@ class WritePlan:
         self.width = self.t_stop = 0.0
         self.reason = ""
         self.tsw = float("nan")
-        area = np.pi * values["diameter"] ** 2 / 4
+        area = float(geometry.disk_area(values["diameter"]))
         j = abs(self.current) / area
         if j > values["j_max"]:
             self.reason = (f"{k:g} x I_c0 = {abs(self.current) * 1e6:.4g} uA is {j / 1e10:.4g} MA/cm^2, beyond the "

@@ -78,3 +78,22 @@ def thermal_cone_drift(m, rate, eps2):
     rho2 = mx**2 + my**2
     k = rate * mz / (rho2 + eps2)
     return sp.Matrix([k * mz * mx, k * mz * my, -k * rho2])
+
+
+def damping_pull_rate(alpha, h_k_eff):
+    """alpha gamma0 H_k,eff / (1 + alpha^2)  [1/s]: the rate at which Gilbert damping pulls a
+    uniaxial macrospin toward its axis near a pole (d theta/dt = -rate cos(theta) sin(theta) in the
+    explicit LLG above, zero field along z)."""
+    return alpha * gamma0 / (1 + alpha**2) * h_k_eff
+
+
+def cone_rest_sin2(h_k_eff, h_axial, sin2_rest, eps2):
+    """sin^2 theta at the fixed point of thermal_cone_drift with rate
+    damping_pull_rate * (sin2_rest + eps2) against the damping pull in H_k,eff cos(theta) plus an
+    axial field ``h_axial`` (along the pole the layer rests at; negative: against it):
+    sin^2 theta + eps2 = (sin2_rest + eps2) H_k,eff / (H_k,eff + H_ax / cos theta), solved by one
+    fixed-point step from cos theta = 1 (exact for H_ax = 0; the step leaves an error of order
+    theta^4 H_ax/H_k,eff).  Derived from the two terms above."""
+    ratio = (sin2_rest + eps2) * h_k_eff
+    s2_0 = ratio / (h_k_eff + h_axial) - eps2
+    return ratio / (h_k_eff + h_axial / sp.sqrt(1 - s2_0)) - eps2
