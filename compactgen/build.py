@@ -127,16 +127,42 @@ def _manifest_figure(x: float):
     return float(f"{x:.12g}") if math.isfinite(x) else None
 
 
-def build_files(card: Card) -> dict[str, str]:
-    """Every output file of a build, as text (nothing is written)."""
+def compiled_model(name: str, va_text: str) -> tuple[bytes | None, dict]:
+    """The .osdi of ``va_text`` (openvaf-r, generic CPU, through the compile cache) and its
+    manifest entry; (None, entry saying why) when openvaf-r is not installed."""
+    from .errors import SimulatorMissing
+    from .sim.vacask import TARGET_CPU, openvaf_version, compile_va_cached
+    from .sim.tools import openvaf_command
+
+    try:
+        version = openvaf_version(openvaf_command())
+    except SimulatorMissing as exc:
+        return None, {"built": False, "why": str(exc).splitlines()[0]}
+    data = compile_va_cached(va_text, name).read_bytes()
+    return data, {"built": True, "source": f"{name}.va", "compiler": version.splitlines()[0],
+                  "target_cpu": TARGET_CPU,
+                  "check": "byte-identical when rebuilt from the same .va by the same compiler; "
+                           "its behaviour is verified against the reference by `compactgen verify` "
+                           "in ngspice (OSDI) and VACASK"}
+
+
+def build_files(card: Card, compiled: bool = True) -> dict[str, str | bytes]:
+    """Every output file of a build (nothing is written): text, and the compiled model NAME.osdi
+    as bytes (``compiled=False``, or no openvaf-r: left out, and the manifest says why)."""
     ir = card.ir()
     figs = eval_figures(ir)
     ng = render.ngspice_context(ir)
-    files = {
+    files: dict[str, str | bytes] = {
         f"{ir.name}.va": render.verilog_a(ir),
         f"{ir.name}.lib": render.ngspice_text(ng),
+        render.osdi_library_file(ir): render.ngspice_osdi(ir),
         f"{ir.name}.md": datasheet(card, ir, figs, ng),
     }
+    osdi_entry = {"built": False, "why": "not asked for"}
+    if compiled:
+        data, osdi_entry = compiled_model(ir.name, files[f"{ir.name}.va"])
+        if data is not None:
+            files[render.osdi_file(ir)] = data
     manifest = {
         "generator": f"compactgen {__version__}",
         "kind": ir.kind,
@@ -145,7 +171,9 @@ def build_files(card: Card) -> dict[str, str]:
         "model_digest": ir.digest(),
         "parameter_digest": render.param_digest(ir),
         "figures": {k: _manifest_figure(v) for k, v in figs.items()},
-        "files": {k: hashlib.sha256(v.encode()).hexdigest() for k, v in sorted(files.items())},
+        "files": {k: hashlib.sha256(v if isinstance(v, bytes) else v.encode()).hexdigest()
+                  for k, v in sorted(files.items())},
+        "compiled": {render.osdi_file(ir): osdi_entry},
     }
     files["manifest.json"] = json.dumps(manifest, indent=2, sort_keys=True, allow_nan=False) + "\n"
     return files

@@ -240,8 +240,8 @@ def add_commands(sub) -> None:
     p.add_argument("kinds", nargs="*", help="device kinds (default: all)")
     p.add_argument("-n", "--per-kind", type=int, default=5, help="cards per kind (default 5)")
     p.add_argument("--seed", type=int, default=1, help="random seed (default 1)")
-    p.add_argument("--sim", default="ngspice,vacask",
-                   help="simulators, comma separated; 'none' runs the reference solver only (default: both)")
+    p.add_argument("--sim", default="all",
+                   help="simulators, comma separated (ngspice, ngspice-osdi, vacask); 'all' (default): every one this machine has; 'none': the reference solver only")
     p.add_argument("--time-limit", type=float, default=TIME_LIMIT, help="seconds per card (default 300)")
     p.set_defaults(func=cmd_sample_cards)
 
@@ -257,7 +257,7 @@ def cmd_sample_cards(args) -> int:
         raise CompactgenError(f"unknown device kind(s) {unknown}; expected some of {all_kinds()}")
     if args.per_kind < 1:
         raise CompactgenError(f"--per-kind: expected a positive number of cards, got {args.per_kind}")
-    sims = () if args.sim.strip() == "none" else parse_simulators(args.sim)
+    sims = parse_simulators(args.sim)
     outcomes = sweep(kinds, args.per_kind, args.seed, sims, args.time_limit,
                      progress=lambda m: print(f"  .. {m}", file=sys.stderr, flush=True))
     print(table(outcomes))

@@ -36,7 +36,10 @@ def main(argv: list[str] | None = None) -> int:
 
     p = sub.add_parser("verify", help="run the bench suite on the reference, ngspice and VACASK")
     p.add_argument("target", help="a card, or a folder written by `compactgen build`")
-    p.add_argument("--sim", default="ngspice,vacask", help="simulators, comma separated (default: both); 'none': the reference solver alone")
+    p.add_argument("--sim", default="all",
+                   help="simulators, comma separated, of: ngspice (B-source library), ngspice-osdi (compiled "
+                        "model in ngspice), vacask; 'all' (default): every one this machine has ('ngspice-osdi' "
+                        "needs an ngspice built with OSDI); 'none': the reference solver alone")
     p.add_argument("--report", help="write an HTML report with plots to this file")
     p.set_defaults(func=cmd_verify)
 
@@ -139,6 +142,12 @@ def cmd_build(args) -> int:
     files[f"{card.name}.card.toml"] = card.text
     for p in write_files(files, args.output):
         say(f"wrote {p}")
+    if f"{card.name}.osdi" not in files:
+        import json
+
+        why = json.loads(files["manifest.json"])["compiled"][f"{card.name}.osdi"]["why"]
+        say(f"note: no compiled model {card.name}.osdi ({why}); the B-source library {card.name}.lib "
+            "and the .va are complete")
     return 0
 
 
@@ -155,7 +164,7 @@ def load_target(target: str):
                                   f"found {len(cards)}")
         card = load_card(cards[0])
         fresh = build_files(card)
-        for name in (f"{card.name}.va", f"{card.name}.lib"):
+        for name in (f"{card.name}.va", f"{card.name}.lib", f"{card.name}.osdi.lib"):
             f = path / name
             if not f.is_file() or f.read_text() != fresh[name]:
                 raise InputError(f"{f}: missing, edited by hand, or built by another compactgen version; "
@@ -169,15 +178,16 @@ def cmd_verify(args) -> int:
 
     from .verify import parse_simulators
 
-    sims = parse_simulators(args.sim)
+    sims = parse_simulators(args.sim, say)
     card = load_target(args.target)
     result = verify_card(card, sims, args.report)
     return result.exit_status
 
 
-def verify_card(card, sims=("ngspice", "vacask"), report: str | None = None, title: str = ""):
-    from .verify import progress_printer, run_suite
+def verify_card(card, sims=None, report: str | None = None, title: str = ""):
+    from .verify import default_simulators, progress_printer, run_suite
 
+    sims = default_simulators(say) if sims is None else sims
     ir = card.ir()
     say(f"verifying {ir.name} ({ir.kind}): setting up benches")
     benches = card.device.benches(ir, card.values)

@@ -333,6 +333,36 @@ def ngspice_text(ctx: dict) -> str:
     return environment().get_template("ngspice/model.lib.j2").render(**ctx)
 
 
+def osdi_file(ir: ModelIR) -> str:
+    """File name of the compiled model beside the generated files."""
+    return f"{ir.name}.osdi"
+
+
+def osdi_library_file(ir: ModelIR) -> str:
+    """File name of the ngspice library that wraps the compiled model."""
+    return f"{ir.name}.osdi.lib"
+
+
+def ngspice_osdi(ir: ModelIR) -> str:
+    """The ngspice library of the compiled model: a subcircuit with the B-source library's name,
+    ports, parameters (same defaults, so the same Monte Carlo draws) and sections, holding one
+    OSDI device ``N1`` of the Verilog-A module with a model of its own."""
+    draws = [dict(name=s.name, once=f"{s.name}_val") for s in draw_params(ir)]
+    once = {d["name"]: d["once"] for d in draws}
+    ctx = _common(ir)
+    ctx.update(
+        params=[dict(name=s.name, default=_section_default(ir, s)) for s in ir.params],
+        sections=_sections(ir), draws=draws, limits=range_limits(ir),
+        states=[dict(name=s.name) for s in ir.states], outputs=[dict(name=o.name) for o in ir.outputs],
+        # a subcircuit default that calls agauss() is drawn anew wherever it is read (see
+        # ngspice_context): each draw is read once into a .param of its own
+        model_params=[dict(name=s.name, value=once.get(s.name, s.name)) for s in ir.params if s.kind != "instance"],
+        instance_params=[dict(name=s.name, value=once.get(s.name, s.name)) for s in ir.params if s.kind == "instance"],
+        instance_line=usage_instance(ir), osdi=osdi_file(ir), lib_file=osdi_library_file(ir),
+    )
+    return environment().get_template("ngspice/osdi.lib.j2").render(**ctx)
+
+
 def ngspice_nodes(ir: ModelIR) -> list[dict]:
     """Every node inside the ngspice subcircuit: name, what it carries, and its scale."""
     return ngspice_context(ir)["node_table"]

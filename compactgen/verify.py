@@ -18,13 +18,17 @@ import numpy as np
 
 from . import render
 from .benches import Bench, Dc, Pulse, Pwl
-from .errors import OutOfCalibratedRange, SimulationError
+from .errors import OutOfCalibratedRange, SimulationError, SimulatorMissing
 from .ir import ModelIR
 from .constants import ZERO_CELSIUS
 from .printing.base import format_number
 from .reference import ReferenceModel, Trace
 
-SIMULATORS = ("ngspice", "vacask")
+#: every simulator path a bench runs in besides the reference: ngspice with the B-source library,
+#: ngspice with the compiled model (OSDI), VACASK with the compiled model
+SIMULATORS = ("ngspice", "ngspice-osdi", "vacask")
+SIMULATOR_TEXT = {"ngspice": "ngspice, B-source library", "ngspice-osdi": "ngspice, compiled model (OSDI)",
+                  "vacask": "VACASK, compiled model"}
 RELTOL = 1e-6  # simulator reltol used by every bench (see the tolerance reasons in benches.py)
 REFERENCE_RTOL = 1e-9  # the reference solver's relative tolerance in bench transients
 
@@ -103,18 +107,41 @@ def _num(x: float, unit: str) -> str:
     return f"{x:.6g} {unit}" if unit not in ("1", "") else f"{x:.6g}"
 
 
-def parse_simulators(text: str) -> tuple[str, ...]:
-    """``"ngspice,vacask"`` -> ("ngspice", "vacask"); an unknown name is bad input (exit 2)."""
+def default_simulators(say=None) -> tuple[str, ...]:
+    """Every simulator path; without COMPACTGEN_REQUIRE_SIMULATORS=1, ngspice's compiled-model path
+    is left out (saying why) where the installed ngspice cannot load compiled models."""
+    from .sim.tools import available, require_simulators
+
+    if require_simulators() or not available("ngspice") or available("ngspice-osdi"):
+        return SIMULATORS
+    if say:
+        from .errors import SimulatorMissing
+        from .sim.tools import ngspice_osdi
+
+        try:
+            ngspice_osdi()
+        except SimulatorMissing as exc:
+            say(f"ngspice-osdi left out: {exc}")
+    return tuple(s for s in SIMULATORS if s != "ngspice-osdi")
+
+
+def parse_simulators(text: str, say=None) -> tuple[str, ...]:
+    """``"ngspice,vacask"`` -> ("ngspice", "vacask"); ``all``: default_simulators(); an unknown
+    name is bad input (exit 2)."""
     from .errors import InputError
 
     if text.strip() == "none":  # the reference solver alone (a quick look; not a verification)
         return ()
+    if text.strip() == "all":
+        return default_simulators(say)
     sims = tuple(s.strip() for s in text.split(",") if s.strip())
     if not sims:
-        raise InputError(f"--sim {text!r}: no simulator named; expected {' and/or '.join(SIMULATORS)}, or none")
+        raise InputError(f"--sim {text!r}: no simulator named; expected some of {', '.join(SIMULATORS)}, "
+                         "all, or none")
     for s in sims:
         if s not in SIMULATORS:
-            raise InputError(f"--sim: unknown simulator {s!r}; expected {' and/or '.join(SIMULATORS)}")
+            raise InputError(f"--sim: unknown simulator {s!r}; expected some of {', '.join(SIMULATORS)}, "
+                             "all, or none")
     return sims
 
 
@@ -181,6 +208,19 @@ def _trace_ngspice(ir: ModelIR, bench: Bench, data: dict) -> Trace:
     return tr
 
 
+def _trace_ngspice_osdi(ir: ModelIR, bench: Bench, data: dict) -> Trace:
+    """A trace of the compiled device N1 inside Xdut: its internal nodes are n.xdut.n1#<name>."""
+    terms = [t.name for t in ir.terminals]
+    t = data["time"] if bench.analysis == "tran" else np.zeros(0)
+    inner = {n.name: np.asarray(data[f"n.xdut.n1#{n.name.lower()}"]) for n in [*ir.states, *ir.nodes]}
+    tr = Trace(t=np.asarray(t),
+               voltages={n: np.asarray(data[f"n_{n}"]) for n in terms},
+               currents={n: -np.asarray(data[f"v_{n}#branch"]) for n in terms},
+               states={s.name: inner[s.name] for s in ir.states})
+    tr.voltages.update({n.name: inner[n.name] for n in ir.nodes})
+    return tr
+
+
 def _trace_vacask(ir: ModelIR, bench: Bench, plots: dict) -> Trace:
     terms = [t.name for t in ir.terminals]
     plot = plots["tr1" if bench.analysis == "tran" else "dc1"]
@@ -211,12 +251,14 @@ def reference_trace(ir: ModelIR, bench: Bench) -> Trace:
 
 
 # ---- the suite --------------------------------------------------------------------------------
-def run_suite(ir: ModelIR, benches: list[Bench], simulators=SIMULATORS, progress=None,
+def run_suite(ir: ModelIR, benches: list[Bench], simulators=None, progress=None,
               keep_dir: str | Path | None = None) -> SuiteResult:
-    """Run ``benches`` on the reference and on each simulator; compare."""
+    """Run ``benches`` on the reference and on each simulator (default: default_simulators());
+    compare."""
     from .sim import compile_va_cached, run_ngspice_many, run_vacask
 
     say = progress or (lambda msg: None)
+    simulators = default_simulators(say) if simulators is None else simulators
     result = SuiteResult(model=ir.name, simulators=tuple(simulators))
     result.not_applicable = [(b.name, b.title, b.not_applicable) for b in benches if b.not_applicable]
     result.findings = [(b.name, b.finding) for b in benches if b.finding and not b.not_applicable]
@@ -232,28 +274,50 @@ def run_suite(ir: ModelIR, benches: list[Bench], simulators=SIMULATORS, progress
         work.mkdir(parents=True, exist_ok=True)
         lib = work / f"{ir.name}.lib"
         lib.write_text(render.ngspice(ir))
+        osdi_lib = work / render.osdi_library_file(ir)
+        osdi_lib.write_text(render.ngspice_osdi(ir))
         va_text = render.verilog_a(ir)
         (work / f"{ir.name}.va").write_text(va_text)
 
-        def sim_ngspice():
-            decks = [ngspice_deck(ir, b, str(lib)) for b in benches]
+        def sim_ngspice(sim: str, library: Path, workers: int, osdi=None):
+            decks = [ngspice_deck(ir, b, str(library)) for b in benches]
             for b, deck in zip(benches, decks):
-                (work / f"bench_{b.name}.cir").write_text(deck)
-            say(f"ngspice: {len(decks)} benches")
+                (work / f"bench_{b.name}{'.osdi' if osdi else ''}.cir").write_text(deck)
+            say(f"{sim}: {len(decks)} benches")
             try:
-                datas = run_ngspice_many(decks, timeout=600.0, workers=2)
+                datas = run_ngspice_many(decks, timeout=600.0, workers=workers, osdi=osdi)
             except SimulationError:
                 datas = []
                 for deck in decks:  # find which bench failed
                     try:
-                        datas.append(run_ngspice_many([deck], timeout=600.0, workers=1)[0])
+                        datas.append(run_ngspice_many([deck], timeout=600.0, workers=1, osdi=osdi)[0])
                     except SimulationError as exc:
                         datas.append(exc)
+            trace = _trace_ngspice_osdi if osdi else _trace_ngspice
             for b, data in zip(benches, datas):
                 if isinstance(data, Exception):
-                    errors[b.name]["ngspice"] = str(data).splitlines()[0]
+                    errors[b.name][sim] = str(data).splitlines()[0]
                 else:
-                    traces[b.name]["ngspice"] = _trace_ngspice(ir, b, data)
+                    try:
+                        traces[b.name][sim] = trace(ir, b, data)
+                    except KeyError as exc:
+                        errors[b.name][sim] = f"no vector {exc} in the results"
+
+        def sim_ngspice_bsource():
+            sim_ngspice("ngspice", lib, workers=2)
+
+        def sim_ngspice_osdi():
+            from .sim.tools import ngspice_osdi
+
+            try:
+                ngspice_osdi()
+                say("openvaf-r: compiling Verilog-A (ngspice)")
+                osdi = compile_va_cached(va_text, ir.name)
+            except (SimulationError, SimulatorMissing) as exc:
+                for b in benches:
+                    errors[b.name]["ngspice-osdi"] = str(exc).splitlines()[0]
+                return
+            sim_ngspice("ngspice-osdi", osdi_lib, workers=1, osdi={ir.name: osdi})
 
         def sim_vacask():
             say("openvaf-r: compiling Verilog-A")
@@ -272,7 +336,7 @@ def run_suite(ir: ModelIR, benches: list[Bench], simulators=SIMULATORS, progress
             with ThreadPoolExecutor(max_workers=2) as pool:
                 list(pool.map(one, benches))
 
-        jobs = {"ngspice": sim_ngspice, "vacask": sim_vacask}
+        jobs = {"ngspice": sim_ngspice_bsource, "ngspice-osdi": sim_ngspice_osdi, "vacask": sim_vacask}
         with ThreadPoolExecutor(max_workers=len(simulators) or 1) as pool:
             futures = [pool.submit(jobs[s]) for s in simulators]
             say(f"reference: {len(benches)} benches")

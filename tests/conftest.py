@@ -18,7 +18,7 @@ def pytest_configure(config: pytest.Config) -> None:
 def needs(*tool_names: str) -> None:
     """Skip the calling test when a tool is missing, or fail it when simulators are required.
 
-    Tool names are those of compactgen.sim.tools.available: "ngspice", "ngspice-cli",
+    Tool names are those of compactgen.sim.tools.available: "ngspice", "ngspice-cli", "ngspice-osdi",
     "vacask", "openvaf", "ld", "admsxml".
     """
     missing = [name for name in tool_names if not available(name)]
@@ -34,6 +34,12 @@ def needs(*tool_names: str) -> None:
 def ngspice() -> None:
     """The ngspice shared library (driven through PySpice)."""
     needs("ngspice")
+
+
+@pytest.fixture
+def ngspice_osdi() -> None:
+    """An ngspice that loads compiled Verilog-A models (OSDI)."""
+    needs("ngspice-osdi")
 
 
 @pytest.fixture

@@ -35,7 +35,8 @@ def test_init_then_build(tmp_path):
     out = tmp_path / "out"
     assert main(["build", str(card), "-o", str(out)]) == 0
     names = sorted(p.name for p in out.iterdir())
-    assert names == ["manifest.json", "mydev.card.toml", "mydev.lib", "mydev.md", "mydev.va"]
+    assert names == ["manifest.json", "mydev.card.toml", "mydev.lib", "mydev.md", "mydev.osdi", "mydev.osdi.lib",
+                     "mydev.va"]
     first = {p.name: p.read_bytes() for p in out.iterdir()}
     assert main(["build", str(card), "-o", str(out)]) == 0
     assert {p.name: p.read_bytes() for p in out.iterdir()} == first
@@ -113,7 +114,7 @@ def test_verify_refuses_edited_build(tmp_path):
 
 
 @pytest.mark.parametrize("sim, fragment", [
-    ("spectre", "unknown simulator 'spectre'; expected ngspice and/or vacask"),
+    ("nonesuch", "unknown simulator 'nonesuch'; expected some of ngspice, ngspice-osdi, vacask, all, or none"),
     ("ngspice,xyce", "unknown simulator 'xyce'"),
     (",", "no simulator named"),
 ])

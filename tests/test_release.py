@@ -208,7 +208,7 @@ def test_curve_files_carry_units_and_agree_with_the_bench_figures(rel):
     assert header.startswith("voltage_t [V],") and "ngspice:current_t [A]" in header and "vacask:mz [1]" in header
     tab = read_csv(text, "rv_parallel.csv")
     k = int(np.argmin(np.abs(tab.x - 0.1)))
-    for src in ("reference", "ngspice", "vacask"):
+    for src in ("reference", "ngspice", "ngspice-osdi", "vacask"):
         r = tab.x[k] / tab.values(f"{src}:current_t")[k]
         assert r == pytest.approx(m["benches"]["rv_parallel"]["metrics"]["R at +0.10 V"][src], rel=1e-8)
     wave = read_csv((path / "curves" / "write_to_p_2ic0.csv").read_text(), "w.csv")
@@ -387,7 +387,7 @@ def test_golden_comparison_report(rel, v2, file_regression):
     with the simulators included, every figure and curve set is inside or outside its band just as
     the reference's is (a simulator's round-off can only turn "same" into "within band")."""
     full = v2["out"].comparison
-    assert full.sources == ["reference", "ngspice", "vacask"]
+    assert full.sources == ["reference", "ngspice", "ngspice-osdi", "vacask"]
     assert (v2["out"].path / "changes.md").read_text() == markdown(full)  # the bundle's report is the full one
     reason = "RA re-fitted on new data; v_max cut to the measured range"
     ref = compare_dirs(rel["v1"].path, v2["out"].path, accept=reason, simulators=())

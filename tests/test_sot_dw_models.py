@@ -98,7 +98,7 @@ def test_build_writes_the_datasheet_with_the_internal_node(tmp_path):
     out = tmp_path / "dw"
     assert main(["build", str(CARDS["dw-mtj"]), "-o", str(out)]) == 0
     names = sorted(p.name for p in out.iterdir())
-    assert names == ["dwtrack_demo.card.toml", "dwtrack_demo.lib", "dwtrack_demo.md", "dwtrack_demo.va",
-                     "manifest.json"]
+    assert names == ["dwtrack_demo.card.toml", "dwtrack_demo.lib", "dwtrack_demo.md", "dwtrack_demo.osdi",
+                     "dwtrack_demo.osdi.lib", "dwtrack_demo.va", "manifest.json"]
     sheet = (out / "dwtrack_demo.md").read_text()
     assert "`mid`" in sheet and "`xw`" in sheet and "v_dmi" in sheet

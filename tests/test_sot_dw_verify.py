@@ -1,5 +1,5 @@
-"""`compactgen verify` of the sot-mtj and dw-mtj demo cards: every bench passes in ngspice and in
-VACASK against the reference, and the benches' expectations hold (published closed forms: the
+"""`compactgen verify` of the sot-mtj and dw-mtj demo cards: every bench passes in ngspice (B-source
+library and compiled model) and in VACASK against the reference, and the benches' expectations hold (published closed forms: the
 exact SOT torque balance, the 1D wall steady state, Schryer & Walker's field-driven speeds)."""
 from __future__ import annotations
 
@@ -17,14 +17,14 @@ def run(card_name: str):
     card = load_card(EXAMPLES / card_name)
     ir = card.ir()
     benches = card.device.benches(ir, card.values)
-    result = run_suite(ir, benches)
+    result = run_suite(ir, benches, simulators=("ngspice", "ngspice-osdi", "vacask"))
     print(result.table())
     return benches, result
 
 
 @pytest.mark.simulator
 @pytest.mark.slow
-def test_sot_suite_passes_in_both_simulators(ngspice, vacask):
+def test_sot_suite_passes_in_every_simulator(ngspice, ngspice_osdi, vacask):
     benches, result = run("sot50_demo.toml")
     assert result.passed, result.table()
     names = {b.name for b in benches}
@@ -32,12 +32,12 @@ def test_sot_suite_passes_in_both_simulators(ngspice, vacask):
     writes = [b for b in benches if b.name.startswith("write_")]
     assert len(writes) == 6  # three amplitudes and the four signs of J * hx
     for run_ in result.runs:
-        assert set(run_.traces) == {"reference", "ngspice", "vacask"}
+        assert set(run_.traces) == {"reference", "ngspice", "ngspice-osdi", "vacask"}
 
 
 @pytest.mark.simulator
 @pytest.mark.slow
-def test_dw_suite_passes_in_both_simulators(ngspice, vacask):
+def test_dw_suite_passes_in_every_simulator(ngspice, ngspice_osdi, vacask):
     benches, result = run("dwtrack_demo.toml")
     assert result.passed, result.table()
     names = {b.name for b in benches}

@@ -6,7 +6,10 @@ kept in a small pool and reused across calls; a worker whose run failed stays us
 that was killed is replaced.
 
 Decks are plain SPICE text: a title line, elements, ``.options`` and dot analyses (``.tran``,
-``.dc``, ``.op``), no ``.control`` block.  Results map the vector names of the last plot, as the
+``.dc``, ``.op``), no ``.control`` block.  Compiled Verilog-A models (OSDI) a deck uses are passed
+beside it as ``{module name: .osdi path}``: a fresh worker loads each with ngspice's ``osdi``
+command before its first deck (a batch run lists them in its ``.spiceinit``); a worker that holds
+another file for the same module name, or has run decks without the model, is not used for it.  Results map the vector names of the last plot, as the
 shared library spells them (``time``, ``a``, ``x1.mz``, ``vm1#branch``, ``v-sweep``), to arrays.
 
 Workers are started with multiprocessing's "forkserver" (or "spawn") method, which imports the
@@ -23,7 +26,7 @@ import re
 import tempfile
 import threading
 from collections import deque
-from collections.abc import Iterable
+from collections.abc import Iterable, Mapping
 from concurrent.futures import ThreadPoolExecutor
 from multiprocessing.connection import Connection
 from pathlib import Path
@@ -65,6 +68,20 @@ class NgspiceWorker:
         child_conn.close()
         alive_r.close()
         register_child(self._process)
+        #: compiled models this worker's ngspice has loaded: module name -> .osdi path
+        self.osdi: dict[str, str] = {}
+
+        #: decks this worker has run
+        self.runs = 0
+
+    def can_load(self, osdi: Mapping[str, str | Path]) -> bool:
+        """False when this worker holds another file for one of the module names in ``osdi``, or
+        would have to load a compiled model after it has run a deck: libngspice 46 crashes
+        (SIGSEGV) running a deck with a model loaded after an earlier circuit was removed, so
+        compiled models are loaded into fresh workers only."""
+        if any(self.osdi.get(m, str(p)) != str(p) for m, p in osdi.items()):
+            return False
+        return self.runs == 0 or all(m in self.osdi for m in osdi)
 
     @property
     def pid(self) -> int | None:
@@ -76,23 +93,32 @@ class NgspiceWorker:
         """True while the child process runs."""
         return self._process.is_alive()
 
-    def run(self, deck: str, timeout: float = 300.0) -> dict[str, np.ndarray]:
+    def run(self, deck: str, timeout: float = 300.0,
+            osdi: Mapping[str, str | Path] | None = None) -> dict[str, np.ndarray]:
         """Run ``deck`` and return the vectors of its last plot.
 
+        ``osdi`` maps module names to the compiled models the deck uses (loaded first).
         Raises SimulationError with the last lines of ngspice output when the run fails, yields
         no vectors, stops before the ``.tran`` end time, or takes longer than ``timeout``
         seconds (the child is then killed).
         """
         deck = _prepare_deck(deck)
+        osdi = _osdi_files(osdi)
         if not self.alive:
             raise SimulationError(f"ngspice worker process {self.pid} is not running "
                                   f"(exit code {self._process.exitcode})")
+        if not self.can_load(osdi):
+            raise SimulationError(f"ngspice worker process {self.pid} cannot load {sorted(osdi)} (another "
+                                  "file of the same name, or decks already run); run the deck in a new worker")
+        load = [p for m, p in osdi.items() if m not in self.osdi]
         try:
-            self._conn.send(deck)
+            self._conn.send((deck, load))
             kind, payload, tail = self._wait(deck, timeout)
         except BaseException:
             self.close()  # the child may still be busy with this deck: never reuse it
             raise
+        self.osdi.update(osdi)
+        self.runs += 1
         if kind == "failed":
             raise _failure(deck, payload, tail)
         _check_vectors(deck, payload, tail)
@@ -143,10 +169,13 @@ def _serve(conn: Connection, library: str, alive: Connection) -> None:
     class StreamingNgSpice(NgSpiceShared):
         """Sends every ngspice output line to the parent as it is printed."""
 
+        recent: list[str] = []  # lines since the last command (to judge an `osdi` load)
+
         def send_char(self, message: str, ngspice_id: int) -> int:
             _, _, text = message.partition(" ")
             if not message.endswith("\r"):  # "\r" lines are progress updates
                 conn.send(("line", text))
+                self.recent.append(text)
             return 0
 
     NgSpiceShared.LIBRARY_PATH = library
@@ -157,9 +186,11 @@ def _serve(conn: Connection, library: str, alive: Connection) -> None:
     loaded = False
     while True:
         try:
-            deck = conn.recv()
+            deck, osdi = conn.recv()
         except EOFError:
             return
+        if any(not _load_osdi(ng, path, conn) for path in osdi):
+            continue
         if loaded:
             ng.destroy()
             try:
@@ -178,6 +209,32 @@ def _serve(conn: Connection, library: str, alive: Connection) -> None:
         conn.send(("ok", {name: np.array(vector._data) for name, vector in vectors.items()}))
 
 
+def _load_osdi(ng, path: str, conn: Connection) -> bool:
+    """Load a compiled model into the worker's ngspice; False (after telling the parent) if not."""
+    ng.recent.clear()
+    try:
+        ng.exec_command(f"osdi {path}")
+    except NameError as exc:  # PySpice's NgSpiceCommandError
+        ng.recent.append(str(exc))
+    failed = [line for line in ng.recent if "rror" in line or "no such command" in line]
+    if failed:
+        conn.send(("failed", f"ngspice could not load the compiled model {path}: {failed[0].strip()}"
+                             + (" (this ngspice is built without OSDI)" if "no such command" in failed[0] else "")))
+        return False
+    return True
+
+
+def _osdi_files(osdi: Mapping[str, str | Path] | None) -> dict[str, str]:
+    """Module name -> absolute path of each compiled model; a missing file is an error."""
+    out = {}
+    for module, path in (osdi or {}).items():
+        path = Path(path).resolve()
+        if not path.is_file():
+            raise SimulationError(f"compiled model {path} (module {module}) not found")
+        out[module] = str(path)
+    return out
+
+
 #: OpenMP threads of every ngspice the project runs (set in the worker and in .spiceinit for
 #: batch runs); parallel runs use one each
 THREADS = 1
@@ -187,21 +244,19 @@ _pool: list[NgspiceWorker] = []
 _pool_lock = threading.Lock()
 
 
-def _acquire() -> NgspiceWorker:
-    """Take an idle worker from the pool, or start one."""
-    with _pool_lock:
-        while _pool:
-            worker = _pool.pop()
-            if worker.alive:
-                return worker
-    return NgspiceWorker()
+#: idle workers kept beyond this many are stopped, oldest first
+MAX_IDLE = 4
 
 
 def _release(worker: NgspiceWorker) -> None:
-    """Return a worker to the pool if it still runs."""
+    """Return a worker to the pool if it still runs (stopping the oldest beyond MAX_IDLE)."""
     if worker.alive:
         with _pool_lock:
             _pool.append(worker)
+            surplus = _pool[:-MAX_IDLE] if len(_pool) > MAX_IDLE else []
+            del _pool[:len(surplus)]
+        for old in surplus:
+            old.close()
 
 
 def _close_pool() -> None:
@@ -220,37 +275,51 @@ atexit.register(_close_pool)
 os.register_at_fork(after_in_child=_forget_pool)
 
 
-def run_ngspice(deck: str, timeout: float = 300.0) -> dict[str, np.ndarray]:
+def _acquire_for(osdi: Mapping[str, str]) -> NgspiceWorker:
+    """An idle pooled worker that can run decks with ``osdi``, or a new one."""
+    with _pool_lock:
+        for worker in reversed(_pool):
+            if worker.alive and worker.can_load(osdi):
+                _pool.remove(worker)
+                return worker
+    return NgspiceWorker()
+
+
+def run_ngspice(deck: str, timeout: float = 300.0,
+                osdi: Mapping[str, str | Path] | None = None) -> dict[str, np.ndarray]:
     """Run one deck in a pooled ngspice worker; return the vectors of its last plot."""
-    worker = _acquire()
+    osdi = _osdi_files(osdi)
+    worker = _acquire_for(osdi)
     try:
-        return worker.run(deck, timeout)
+        return worker.run(deck, timeout, osdi)
     finally:
         _release(worker)
 
 
-def run_ngspice_many(decks: Iterable[str], timeout: float = 300.0,
-                     workers: int | None = None) -> list[dict[str, np.ndarray]]:
+def run_ngspice_many(decks: Iterable[str], timeout: float = 300.0, workers: int | None = None,
+                     osdi: Mapping[str, str | Path] | None = None) -> list[dict[str, np.ndarray]]:
     """Run decks in parallel worker processes; results come back in the order of ``decks``.
 
     ``workers`` defaults to the number of CPUs.  ``timeout`` applies to each deck.  The first
     failing deck (in order) raises SimulationError naming its position; decks not yet started
-    are then skipped.
+    are then skipped.  ``osdi``: the compiled models every deck uses (module name -> path).
     """
     decks = [_prepare_deck(deck) for deck in decks]
+    osdi = _osdi_files(osdi)
     if not decks:
         return []
     count = max(1, min(len(decks), workers or os.cpu_count() or 1))
-    idle = [_acquire() for _ in range(count)]
+    idle = [_acquire_for(osdi) for _ in range(count)]
     lock = threading.Lock()
 
     def run_one(deck: str) -> dict[str, np.ndarray]:
         with lock:
             worker = idle.pop()
         try:
-            if not worker.alive:  # killed after a timeout
+            if not worker.alive or not worker.can_load(osdi):  # killed after a timeout
+                worker.close()
                 worker = NgspiceWorker()
-            return worker.run(deck, timeout)
+            return worker.run(deck, timeout, osdi)
         finally:
             with lock:
                 idle.append(worker)
@@ -271,19 +340,22 @@ def run_ngspice_many(decks: Iterable[str], timeout: float = 300.0,
             _release(worker)
 
 
-def run_ngspice_batch(deck: str, timeout: float = 300.0) -> dict[str, np.ndarray]:
-    """Run a deck with ``ngspice -b -r out.raw`` in a temporary directory.
+def run_ngspice_batch(deck: str, timeout: float = 300.0,
+                      osdi: Mapping[str, str | Path] | None = None) -> dict[str, np.ndarray]:
+    """Run a deck with ``ngspice -b -r out.raw`` in a temporary directory (compiled models in
+    ``osdi`` are loaded by its ``.spiceinit``, with the thread count).
 
     Returns the last plot with the shared library's names (``v(a)`` becomes ``a``, ``i(vm1)``
     becomes ``vm1#branch``).  Success is judged by the raw file having data (and reaching the
     ``.tran`` end time), not by the exit status.
     """
     deck = _prepare_deck(deck)
+    osdi = _osdi_files(osdi)
     command = ngspice_command()
     with tempfile.TemporaryDirectory(prefix="compactgen-ngspice-") as tmp:
         work = Path(tmp)
         (work / "deck.cir").write_text(deck)
-        (work / ".spiceinit").write_text(SPICEINIT)
+        (work / ".spiceinit").write_text(SPICEINIT + "".join(f"osdi {p}\n" for p in osdi.values()))
         returncode, log = run_tool([command, "-b", "-r", "out.raw", "deck.cir"], cwd=work,
                                    timeout=timeout, what=f"ngspice deck {_title(deck)!r}")
         tail = log.split("Total elapsed time")[0].splitlines()  # drop the resource-usage trailer

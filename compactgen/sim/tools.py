@@ -6,6 +6,7 @@ with the Debian or pip package that provides the tool.
 from __future__ import annotations
 
 import ctypes
+import functools
 import os
 import re
 import shutil
@@ -19,7 +20,7 @@ from compactgen.errors import SimulationError, SimulatorMissing
 
 __all__ = [
     "REQUIRE_ENV", "admsxml_command", "available", "exit_text", "format_tail", "linker_command",
-    "ngspice_command", "ngspice_library", "ngspice_shared", "openvaf_command",
+    "ngspice_command", "ngspice_library", "ngspice_osdi", "ngspice_shared", "openvaf_command",
     "require_simulators", "resume_children", "run_tool", "stop_children", "vacask_command",
 ]
 
@@ -69,6 +70,36 @@ def ngspice_command() -> str:
     return _which("ngspice", "install the Debian package ngspice")
 
 
+@functools.lru_cache(maxsize=None)
+def _osdi_probe(command: str) -> str:
+    """Empty when the ngspice at ``command`` has the ``osdi`` command, else the reason."""
+    import tempfile
+
+    with tempfile.TemporaryDirectory(prefix="compactgen-osdi-probe-") as tmp:
+        deck = Path(tmp) / "probe.cir"
+        deck.write_text("osdi probe\n.control\npre_osdi absent.osdi\nquit\n.endc\n.end\n")
+        (Path(tmp) / ".spiceinit").write_text("set num_threads=1\n")
+        returncode, log = run_tool([command, "-b", str(deck)], cwd=Path(tmp), timeout=60,
+                                   what="asking ngspice whether it loads compiled models")
+    if "no such command" in log:
+        version = re.search(r"ngspice-[0-9.]+", log)
+        return (f"{version.group(0) if version else command} is built without OSDI, so it cannot "
+                "load compiled Verilog-A models; on Debian 12 run scripts/setup.sh (ngspice 46 from "
+                "bookworm-backports), elsewhere use an ngspice built with --enable-osdi")
+    return ""
+
+
+def ngspice_osdi() -> str:
+    """The ngspice executable, after checking that it loads compiled Verilog-A models (OSDI);
+    its shared library comes from the same package."""
+    command = ngspice_command()
+    reason = _osdi_probe(command)
+    if reason:
+        raise SimulatorMissing(reason)
+    ngspice_shared()
+    return command
+
+
 def linker_command() -> str:
     """Path of the system linker ``ld``, which openvaf-r runs to link every .osdi."""
     return _which("ld", "install the Debian package binutils (openvaf-r links with it)")
@@ -116,6 +147,7 @@ _LOCATORS: dict[str, Callable[[], str]] = {
     "ngspice": ngspice_shared,
     "ld": linker_command,
     "ngspice-cli": ngspice_command,
+    "ngspice-osdi": ngspice_osdi,
     "vacask": vacask_command,
     "openvaf": openvaf_command,
     "admsxml": admsxml_command,
@@ -125,7 +157,8 @@ _LOCATORS: dict[str, Callable[[], str]] = {
 def available(name: str) -> bool:
     """True when the tool ``name`` can be found.
 
-    Names: "ngspice" (shared library with PySpice), "ngspice-cli" (executable), "vacask", "openvaf",
+    Names: "ngspice" (shared library with PySpice), "ngspice-cli" (executable), "ngspice-osdi"
+    (an ngspice that loads compiled Verilog-A models), "vacask", "openvaf",
     "ld" (needed by openvaf), "admsxml".
     """
     try:

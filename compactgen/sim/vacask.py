@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import functools
 import hashlib
+import threading
 import os
 import re
 import tempfile
@@ -27,8 +28,14 @@ CACHE_ENV = "COMPACTGEN_CACHE"
 """Root of compactgen's caches; compiled models go to its ``osdi`` subfolder."""
 
 
+#: openvaf-r's target CPU for every compiled model: "generic" code runs on any x86-64 machine a
+#: designer has, and the output is byte-identical for the same source, file name and compiler
+#: (measured: two builds in different folders agree; "native" code may not run elsewhere)
+TARGET_CPU = "generic"
+
+
 def compile_va(va_path: str | Path, osdi_path: str | Path | None = None, timeout: float = 120,
-               target_cpu: str = "native") -> Path:
+               target_cpu: str = TARGET_CPU) -> Path:
     """Compile ``va_path`` with openvaf-r to ``osdi_path`` (default: next to it, suffix .osdi).
 
     Any old .osdi is deleted first, and the new one must exist afterwards (openvaf-r exits 0
@@ -38,7 +45,7 @@ def compile_va(va_path: str | Path, osdi_path: str | Path | None = None, timeout
     va_path = Path(va_path).resolve()
     if not va_path.is_file():
         raise SimulationError(f"Verilog-A file {va_path} not found")
-    osdi_path = Path(osdi_path) if osdi_path is not None else va_path.with_suffix(".osdi")
+    osdi_path = Path(osdi_path).resolve() if osdi_path is not None else va_path.with_suffix(".osdi")
     command = openvaf_command()
     osdi_path.unlink(missing_ok=True)
     osdi_path.parent.mkdir(parents=True, exist_ok=True)
@@ -60,7 +67,7 @@ def compile_va(va_path: str | Path, osdi_path: str | Path | None = None, timeout
 
 
 @functools.lru_cache(maxsize=None)
-def _openvaf_version(command: str) -> str:
+def openvaf_version(command: str) -> str:
     """The version line of the openvaf-r at ``command``."""
     returncode, log = run_tool([command, "--version"], cwd=Path(command).parent, timeout=60,
                                 what="asking openvaf-r for its version")
@@ -79,16 +86,26 @@ def _default_cache_dir() -> Path:
 def compile_va_cached(va_text: str, module_name: str, cache_dir: str | Path | None = None) -> Path:
     """Compile self-contained Verilog-A text once and return the cached .osdi.
 
-    The cache key is the sha256 of the text and the openvaf-r version.  The file is built under
+    The cache key is the sha256 of the text, the openvaf-r version and the target CPU; the file is
+    compiled as ``<module_name>.osdi`` (openvaf-r writes the file name into it), so its bytes are
+    those a build ships.  The file is built under
     a temporary name and moved into place with os.replace, so parallel processes never see a
     partial file.
     """
     if not re.fullmatch(r"[A-Za-z_][A-Za-z0-9_]*", module_name):
         raise ValueError(f"module name {module_name!r} is not a plain Verilog-A identifier")
     cache = Path(cache_dir) if cache_dir is not None else _default_cache_dir()
-    version = _openvaf_version(openvaf_command())
-    digest = hashlib.sha256(f"{version}\n{va_text}".encode()).hexdigest()
+    version = openvaf_version(openvaf_command())
+    digest = hashlib.sha256(f"{version}\n{TARGET_CPU}\n{va_text}".encode()).hexdigest()
     target = cache / f"{module_name}-{digest[:20]}.osdi"
+    with _COMPILE_LOCKS.setdefault(str(target), threading.Lock()):  # threads compile once
+        return _compile_into_cache(va_text, module_name, cache, target)
+
+
+_COMPILE_LOCKS: dict[str, threading.Lock] = {}
+
+
+def _compile_into_cache(va_text: str, module_name: str, cache: Path, target: Path) -> Path:
     if target.is_file():
         return target
     cache.mkdir(parents=True, exist_ok=True)
