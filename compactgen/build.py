@@ -32,7 +32,7 @@ def datasheet(card: Card, ir: ModelIR, figs: dict[str, float], ngspice_ctx: dict
         return sp.latex(e, mul_symbol="dot", symbol_names=names)
 
     from .devices.variation import CORNERS, is_draw
-    from .reference import ReferenceModel
+    from .reference import reference_numbers
     from .sim import options as simopt
     from .units import from_si
 
@@ -73,7 +73,7 @@ def datasheet(card: Card, ir: ModelIR, figs: dict[str, float], ngspice_ctx: dict
     else:
         step = dict(value=1e-12, text="1 ps", period="", f_fmr="", n=0, n25="")
     step["spice"] = f"{step['value'] * 1e12:.3g}p"
-    tsc = ReferenceModel(ir, temperature=tnom or 300.15).num[ir.time_scale]
+    tsc = reference_numbers(ir, temperature=tnom or 300.15)[ir.time_scale]
     options = [dict(name=k, value=v, why=why.format(state_charge=f"{tsc:.1e}")) for k, v, why in simopt.DECK_OPTIONS]
     draws = [s.name for s in ir.params if is_draw(s.name)]
     inst = [s for s in ir.params if s.kind == "instance" and not is_draw(s.name)]

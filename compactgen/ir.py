@@ -248,6 +248,46 @@ class ModelIR:
             h.update(b"\0")
         return h.hexdigest()[:16]
 
+    def structure_digest(self) -> str:
+        """A hash of what the renderers print from: kind, ports, nodes, every symbol (with its
+        assumptions), constant and expression, states, branches, outputs, limits and shared
+        quantities; not the parameter values (defaults), names of the model, descriptive texts,
+        figures or constraints.  Two cards of one kind that differ only in values the equations
+        do not hold as numbers share it (part of the render cache's key, render.ngspice_context)."""
+        h = hashlib.sha256()
+        for part in self._structure_parts():
+            h.update(part.encode())
+            h.update(b"\0")
+        return h.hexdigest()
+
+    def _structure_parts(self):
+        yield self.kind
+        yield ",".join(t.name for t in self.terminals)
+        yield "nodes:" + ",".join(n.name for n in self.nodes)
+        for s in self.params:
+            yield f"param {s.name}|{s.kind}|{sp.srepr(s.symbol)}"
+        for sym, v in self.constants.items():
+            yield f"const {sp.srepr(sym)}={float(v).hex()}"
+        yield f"temperature {sp.srepr(self.temperature)}; time scale {sp.srepr(self.time_scale)}"
+        for sym, (p, n) in self.voltages.items():
+            yield f"probe {sp.srepr(sym)}=V({p},{n})"
+        for sym, e in self.derived:
+            yield f"derived {sp.srepr(sym)}={sp.srepr(e)}"
+        for sym, e in self.locals:
+            yield f"local {sp.srepr(sym)}={sp.srepr(e)}"
+        for s in self.states:
+            yield f"state {s.name}|{s.unit}|{sp.srepr(s.symbol)}:{sp.srepr(s.rhs)}:{sp.srepr(s.initial)}"
+        for b in self.branches:
+            yield f"branch {b.pos},{b.neg}:{sp.srepr(b.current)}"
+        for o in self.outputs:
+            yield f"output {o.name}|{o.unit}:{sp.srepr(o.expr)}"
+        for name, sym in self.limits.items():
+            yield f"limit {name}:{sp.srepr(sym)}"
+        for sym, e in self.shared.items():
+            yield f"shared {sp.srepr(sym)}={sp.srepr(e)}"
+        for name, e in self.residuals.items():
+            yield f"residual {name}={sp.srepr(e)}"
+
     def _canonical_parts(self):
         yield self.kind
         yield ",".join(t.name for t in self.terminals)
@@ -312,7 +352,10 @@ class Hoister:
             if len(fixed) >= 2 or (len(fixed) == 1 and not fixed[0].is_Atom):
                 return e.func(self._name(e.func(*fixed)), *rest)
             return e.func(*fixed, *rest)
-        return e.func(*[self(a) for a in e.args])
+        args = [self(a) for a in e.args]
+        if all(a is b for a, b in zip(args, e.args)):
+            return e  # nothing hoisted inside: e.func(*e.args) == e, and rebuilding (e.g. a Max) is slow
+        return e.func(*args)
 
 
 def collect_terms(expr: sp.Expr, fixed: set[sp.Symbol]) -> sp.Expr:

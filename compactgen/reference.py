@@ -12,7 +12,6 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import sympy as sp
-from scipy.integrate import solve_ivp
 
 from . import bignum
 from .errors import OutOfCalibratedRange, RangeError
@@ -50,6 +49,18 @@ def numeric_parameters(ir: ModelIR, overrides: dict[str, float] | None = None) -
             continue
         num[sym] = _evaluate(expr, num, str(sym))
     check_constraints()
+    return num
+
+
+def reference_numbers(ir: ModelIR, overrides: dict[str, float] | None = None,
+                      temperature: float = DEFAULT_TEMPERATURE) -> dict[sp.Symbol, float]:
+    """Numbers for every parameter, constant and derived symbol at ``temperature`` [K] (what
+    ReferenceModel.num holds, without preparing the model for integration)."""
+    num = numeric_parameters(ir, overrides)
+    num[ir.temperature] = float(temperature)
+    for sym, expr in ir.derived:
+        if sym not in num:
+            num[sym] = _evaluate(expr, num, str(sym))
     return num
 
 
@@ -172,11 +183,7 @@ class ReferenceModel:
                  temperature: float = DEFAULT_TEMPERATURE):
         self.ir = ir
         self.temperature = float(temperature)
-        num = numeric_parameters(ir, overrides)
-        num[ir.temperature] = self.temperature
-        for sym, expr in ir.derived:
-            if sym not in num:
-                num[sym] = _evaluate(expr, num, str(sym))
+        num = reference_numbers(ir, overrides, self.temperature)
         self.num = num
         self.tsc = num[ir.time_scale]
         local_map: dict[sp.Symbol, sp.Expr] = {}
@@ -459,6 +466,8 @@ class ReferenceModel:
             # restoring term to overflow; the step is then rejected, so stay quiet about it
             with np.errstate(over="ignore", invalid="ignore"):
                 return self.rhs(node_v(t, y), y)
+
+        from scipy.integrate import solve_ivp  # here, not at import: `compactgen build` needs no scipy
 
         ts, ys = [], []
         last_t = None

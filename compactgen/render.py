@@ -108,9 +108,9 @@ def draw_params(ir: ModelIR) -> list:
 
 
 def _reference_numbers(ir: ModelIR, temperature: float) -> dict:
-    from .reference import ReferenceModel
+    from .reference import reference_numbers
 
-    return {k: float(v) for k, v in ReferenceModel(ir, temperature=temperature).num.items()}
+    return {k: float(v) for k, v in reference_numbers(ir, temperature=temperature).items()}
 
 
 def _evaluate_at(expr, numbers: dict) -> float:
@@ -187,7 +187,13 @@ def _sections(ir: ModelIR) -> list[dict]:
 
 
 def ngspice_context(ir: ModelIR) -> dict:
-    """The template context of the ngspice library (every expression printed)."""
+    """The template context of the ngspice library (every expression printed).
+
+    The expressions are printed by ``_ngspice_expressions`` (sympy simplification, the slow part
+    of a build) or read from the render cache (compactgen/cache.py), keyed by
+    ``_expressions_key``: the model's structure without its parameter values, the node scales
+    (the only numbers the printed expressions hold) and the printing code.  Everything else
+    here is computed every time."""
     smap = {str(k): f"V({p},{n})" if n != "0" else f"V({p})" for k, (p, n) in ir.voltages.items()}
     smap.update({s.name: f"V({s.name})" for s in ir.states})
     smap[str(ir.temperature)] = "(temper + 273.15)"
@@ -200,6 +206,107 @@ def ngspice_context(ir: ModelIR) -> dict:
     # per instance) and the model and the draw's node both use that
     draws = [dict(name=s.name, desc=s.desc, once=f"{s.name}_val") for s in draw_params(ir)]
     smap.update({d["name"]: d["once"] for d in draws})
+    tdep = ir.temperature_dependent()
+    # a temperature-dependent quantity that bias-dependent expressions use is computed once on a
+    # node of its own (V = value): inlined, its Bloch and Callen-Callen powers of `temper` were
+    # repeated in every B-source and its derivatives (transients ~4x slower); as a .param it is
+    # no faster, because ngspice re-inlines every .param that reads `temper`
+    used: set[sp.Symbol] = set()
+    for e in ([e for _, e in ir.locals] + [st.rhs for st in ir.states] + [st.initial for st in ir.states]
+              + [b.current for b in ir.branches]):
+        used |= e.free_symbols & tdep
+    # each node carries value/scale with scale = |value| at the card's values and tnom, so node
+    # voltages are O(1) whatever the quantity (a wall width of 5e-9 m on a node would sit below
+    # ngspice's absolute voltage tolerance); initial conditions (parse time) use T = tnom
+    t_ref = ir.params["tnom"].default if "tnom" in ir.params else 300.15
+    t_ref_sym = ir.params["tnom"].symbol if "tnom" in ir.params else sp.Float(t_ref)
+    shared = [sym for sym, _ in ir.locals if sym in ir.shared]
+    ref_num = _reference_numbers(ir, t_ref) if used or shared else {}
+    scales = {sym: abs(ref_num.get(sym, 1.0)) or 1.0 for sym, _ in ir.derived if sym in used}
+
+    from . import cache
+
+    printed = cache.remembered(
+        "render", _expressions_key(ir, smap, scales, t_ref_sym),
+        lambda: _ngspice_expressions(ir, smap, scales, t_ref_sym),
+        lambda printed: _valid_printed(printed, ir, scales, shared), stem=ir.kind)
+
+    tnodes = [dict(name=f"tq_{sym}", code=code,
+                   desc=f"{sym} at the device temperature (circuit temperature + dtemp)",
+                   scale_text=f"1 V = {scale:.6g} (|{sym}| at tnom and the card values)")
+              for (sym, scale), code in zip(scales.items(), printed["tnodes"])]
+    aux = [dict(name=str(sym), code=code,
+                desc=f"bias- and state-dependent quantity {sym}, computed once for the sources that share it",
+                scale_text=f"1 V = {ir.shared[sym]} "
+                           f"({_evaluate_at(ir.shared[sym], ref_num):.6g} at the card values, tt)")
+           for sym, code in zip(shared, printed["aux"])]
+    monitors = [dict(name=o.name, desc=o.desc, unit=unit, si_unit=o.unit, scale=scale,
+                     unit_text="1 V = 1" if unit in ("1", "") else f"1 V = 1 {unit}", code=code)
+                for o, (unit, scale, code) in zip(ir.monitored_outputs(), printed["monitors"])]
+
+    ctx = _common(ir)
+    ctx.update(
+        params=[dict(name=s.name, default=_section_default(ir, s)) for s in ir.params],
+        sections=_sections(ir),
+        constants=[dict(name=str(k), code=format_number(v)) for k, v in ir.constants.items()],
+        aux=aux,
+        temperature_nodes=tnodes,
+        states=[dict(name=s.name, desc=s.desc, residual=residual, initial=initial)
+                for s, (residual, initial) in zip(ir.states, printed["states"])],
+        time_scale=str(ir.time_scale),
+        branches=[dict(pos=b.pos, neg=b.neg, desc=b.desc, code=code) for b, code in zip(ir.branches, printed["branches"])],
+        monitors=monitors,
+        draws=draws,
+        limits=range_limits(ir),
+        instance_line=usage_instance(ir),
+    )
+    ctx["derived"] = [dict(name=d["once"], code=d["name"]) for d in draws] + [
+        dict(name=name, code=code) for name, code in printed["derived"]]
+    ctx["node_table"] = _node_table(ir, aux, tnodes, monitors)
+    return ctx
+
+
+#: the source files whose code decides the printed ngspice expressions (part of their cache key)
+_PRINTING_SOURCES = ("render.py", "ir.py", "units.py", "printing/__init__.py", "printing/base.py",
+                     "printing/ngspice.py")
+
+
+def _expressions_key(ir: ModelIR, smap: dict, scales: dict, t_ref_sym) -> str:
+    """What _ngspice_expressions depends on: the printing code, sympy's version, the model's
+    structure (every expression and symbol; the parameter values are not in it), the symbol
+    map and the node scales."""
+    from . import cache
+
+    return "\n".join((cache.source_digest(*_PRINTING_SOURCES), f"sympy {sp.__version__}", ir.structure_digest(),
+                      repr(sorted(smap.items())), sp.srepr(t_ref_sym),
+                      repr([(str(k), float(v).hex()) for k, v in scales.items()])))
+
+
+def _valid_printed(printed, ir: ModelIR, scales: dict, shared: list) -> bool:
+    """Whether a cached entry holds what ngspice_context reads, in the model's numbers."""
+    def strings(x, n):
+        return isinstance(x, list) and len(x) == n and all(isinstance(s, str) for s in x)
+
+    def rows(x, n, types):
+        return (isinstance(x, list) and len(x) == n
+                and all(isinstance(r, list) and len(r) == len(types) and all(isinstance(v, t) for v, t in zip(r, types))
+                        for r in x))
+
+    return (isinstance(printed, dict)
+            and strings(printed.get("tnodes"), len(scales))
+            and strings(printed.get("aux"), len(shared))
+            and rows(printed.get("states"), len(ir.states), (str, str))
+            and strings(printed.get("branches"), len(ir.branches))
+            and rows(printed.get("monitors"), len(ir.monitored_outputs()), (str, float, str))
+            and isinstance(printed.get("derived"), list)
+            and rows(printed["derived"], len(printed["derived"]), (str, str)))
+
+
+def _ngspice_expressions(ir: ModelIR, smap: dict, scales: dict, t_ref_sym) -> dict:
+    """Every expression of the ngspice library, printed: temperature nodes, shared quantities,
+    outputs, state residuals and initial values, branch currents and the parameter-only
+    quantities (the hoisted coefficients among them).  A function of the model's structure,
+    ``smap`` and the node ``scales`` alone (see _expressions_key); JSON-ready."""
     pr = NgspicePrinter(smap)
     hoist = Hoister(ir.parameter_level())
     tdep = ir.temperature_dependent()
@@ -224,36 +331,20 @@ def ngspice_context(ir: ModelIR) -> dict:
 
         return hoist(min(candidates, key=size))
 
-    # a temperature-dependent quantity that bias-dependent expressions use is computed once on a
-    # node of its own (V = value): inlined, its Bloch and Callen-Callen powers of `temper` were
-    # repeated in every B-source and its derivatives (transients ~4x slower); as a .param it is
-    # no faster, because ngspice re-inlines every .param that reads `temper`
-    used: set[sp.Symbol] = set()
-    for e in ([e for _, e in ir.locals] + [st.rhs for st in ir.states] + [st.initial for st in ir.states]
-              + [b.current for b in ir.branches]):
-        used |= e.free_symbols & tdep
-    tnodes = []
-    # each node carries value/scale with scale = |value| at the card's values and tnom, so node
-    # voltages are O(1) whatever the quantity (a wall width of 5e-9 m on a node would sit below
-    # ngspice's absolute voltage tolerance); initial conditions (parse time) use T = tnom
-    t_ref = ir.params["tnom"].default if "tnom" in ir.params else 300.15
-    t_ref_sym = ir.params["tnom"].symbol if "tnom" in ir.params else sp.Float(t_ref)
-    ref_num = _reference_numbers(ir, t_ref) if used else {}
     ic_inline: dict[sp.Symbol, sp.Expr] = {}
     for sym, e in ir.derived:
         if sym in tdep:
             ic_inline[sym] = e.xreplace({ir.temperature: t_ref_sym}).xreplace(ic_inline)
     # every node is computed from the temperature alone (not from other nodes, which hold any
     # value during the first Newton iterations of an operating point)
+    tnodes = []
     for sym, e in ir.derived:
-        if sym in used:
-            scale = abs(ref_num.get(sym, 1.0)) or 1.0
-            tnodes.append(dict(name=f"tq_{sym}", code=spice_wrap(pr.code(compact(inline[sym] / scale))),
-                               desc=f"{sym} at the device temperature (circuit temperature + dtemp)",
-                               scale_text=f"1 V = {scale:.6g} (|{sym}| at tnom and the card values)"))
+        if sym in scales:
+            scale = scales[sym]
+            tnodes.append(spice_wrap(pr.code(compact(inline[sym] / scale))))
             pr.symbol_map[f"tqn_{sym}"] = f"V(tq_{sym})"
             inline[sym] = sp.Float(scale) * sp.Symbol(f"tqn_{sym}", real=True)
-    aux, extra_derived, aux_num = [], [], {}
+    aux, extra_derived = [], []
     for sym, e in ir.locals:
         if sym in ir.shared:
             # computed once per instance on node <name>: R to ground of 1 ohm, fed by a current
@@ -262,11 +353,7 @@ def ngspice_context(ir: ModelIR) -> dict:
             inv = sp.Symbol(f"kis_{sym}", positive=True)
             extra_derived += [(scale, ir.shared[sym]), (inv, 1 / scale)]
             hoist.base |= {scale, inv}
-            aux_num = aux_num or _reference_numbers(ir, t_ref)
-            aux.append(dict(name=str(sym), code=spice_wrap(pr.code(compact((inv * e).xreplace(inline)))),
-                            desc=f"bias- and state-dependent quantity {sym}, computed once for the sources that share it",
-                            scale_text=f"1 V = {ir.shared[sym]} "
-                                       f"({_evaluate_at(ir.shared[sym], aux_num):.6g} at the card values, tt)"))
+            aux.append(spice_wrap(pr.code(compact((inv * e).xreplace(inline)))))
             node = sp.Symbol(f"aux_{sym}", real=True)
             pr.symbol_map[node.name] = f"V({sym})"
             inline[sym] = scale * node
@@ -289,31 +376,13 @@ def ngspice_context(ir: ModelIR) -> dict:
         unit, scale = node_unit(o.unit)
         expr = sp.sympify(o.expr).xreplace(inline)
         expr = compact(expr if scale == 1.0 else expr / sp.Float(scale))
-        monitors.append(dict(name=o.name, desc=o.desc, unit=unit, si_unit=o.unit, scale=scale,
-                             unit_text="1 V = 1" if unit in ("1", "") else f"1 V = 1 {unit}",
-                             code=spice_wrap(pr.code(Sampled(expr)))))
-
-    ctx = _common(ir)
-    ctx.update(
-        params=[dict(name=s.name, default=_section_default(ir, s)) for s in ir.params],
-        sections=_sections(ir),
-        constants=[dict(name=str(k), code=format_number(v)) for k, v in ir.constants.items()],
-        aux=aux,
-        temperature_nodes=tnodes,
-        states=[dict(name=s.name, desc=s.desc, residual=spice_wrap(residual(s)), initial=pr.code(hoist(sp.sympify(s.initial).xreplace(ic_inline))))
-                for s in ir.states],
-        time_scale=str(ir.time_scale),
-        branches=[dict(pos=b.pos, neg=b.neg, desc=b.desc, code=spice_wrap(code(b.current))) for b in ir.branches],
-        monitors=monitors,
-        draws=draws,
-        limits=range_limits(ir),
-        instance_line=usage_instance(ir),
-    )
-    ctx["derived"] = [dict(name=d["once"], code=d["name"]) for d in draws] + [
-        dict(name=str(k), code=pr.code(e)) for k, e in list(ir.derived) + extra_derived + hoist.definitions
-        if k not in tdep]
-    ctx["node_table"] = _node_table(ir, aux, tnodes, monitors)
-    return ctx
+        monitors.append([unit, float(scale), spice_wrap(pr.code(Sampled(expr)))])
+    states = []
+    for s in ir.states:
+        states.append([spice_wrap(residual(s)), pr.code(hoist(sp.sympify(s.initial).xreplace(ic_inline)))])
+    branches = [spice_wrap(code(b.current)) for b in ir.branches]
+    derived = [[str(k), pr.code(e)] for k, e in list(ir.derived) + extra_derived + hoist.definitions if k not in tdep]
+    return dict(tnodes=tnodes, aux=aux, monitors=monitors, states=states, branches=branches, derived=derived)
 
 
 def ngspice(ir: ModelIR, monitors: bool = True) -> str:

@@ -16,6 +16,7 @@ import tempfile
 from collections.abc import Iterable, Mapping
 from pathlib import Path
 
+from compactgen.cache import CACHE_ENV, cache_dir as _cache_subdir  # noqa: F401 (CACHE_ENV: kept importable here)
 from compactgen.errors import SimulationError
 from compactgen.sim.rawfile import RawPlot, read_raw
 from compactgen.sim.tools import (
@@ -23,9 +24,6 @@ from compactgen.sim.tools import (
 )
 
 __all__ = ["admsxml_check", "compile_va", "compile_va_cached", "run_vacask"]
-
-CACHE_ENV = "COMPACTGEN_CACHE"
-"""Root of compactgen's caches; compiled models go to its ``osdi`` subfolder."""
 
 
 #: openvaf-r's target CPU for every compiled model: "generic" code runs on any x86-64 machine a
@@ -79,8 +77,7 @@ def openvaf_version(command: str) -> str:
 
 def _default_cache_dir() -> Path:
     """``$COMPACTGEN_CACHE/osdi``, or ``~/.cache/compactgen/osdi``."""
-    root = os.environ.get(CACHE_ENV)
-    return (Path(root) if root else Path.home() / ".cache" / "compactgen") / "osdi"
+    return _cache_subdir("osdi")
 
 
 def compile_va_cached(va_text: str, module_name: str, cache_dir: str | Path | None = None) -> Path:
