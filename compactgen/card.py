@@ -47,7 +47,24 @@ class Card:
         return get_kind(self.kind)
 
     def ir(self) -> ModelIR:
+        memo = self.__dict__.pop("_ir_once", None)
+        if memo is not None and memo[0] == self._ir_inputs():
+            return memo[1]
         return self.device.build_ir(self.name, self.values, self.options)
+
+    def _ir_inputs(self) -> tuple:
+        return (self.kind, self.name, tuple(self.options.items()), tuple(self.values.items()))
+
+    def _keep_ir_once(self, ir: ModelIR) -> None:
+        """The IR parse_card built to check the card: the next ir() returns it instead of building
+        it again, once, and only while the card still holds the values it was built from (a caller
+        may change the IR it is given)."""
+        self.__dict__["_ir_once"] = (self._ir_inputs(), ir)
+
+    def __getstate__(self):
+        state = dict(self.__dict__)
+        state.pop("_ir_once", None)  # not worth pickling sympy trees to other processes
+        return state
 
     def sha256(self) -> str:
         return hashlib.sha256(self.text.encode()).hexdigest()
@@ -161,9 +178,11 @@ def parse_card(text: str, where: str = "<card>", path: Path | None = None) -> Ca
     try:
         from .reference import numeric_parameters
 
-        numeric_parameters(card.ir())
+        ir = card.ir()
+        numeric_parameters(ir)
     except RangeError as exc:
         raise RangeError(f"{where}: {exc}") from None
+    card._keep_ir_once(ir)
     return card
 
 

@@ -35,13 +35,37 @@ def thermal_context(ir: ModelIR) -> dict | None:
                          r_ap=f"{f.get('r_ap', float('nan')):.0f}"))
     f25 = figs[25.0]
     f85 = figures(ir, temperature=85.0 + ZERO_CELSIUS)
-    wer = []
-    for i in WER_RATIOS:
-        p = precessional_probability(f25["delta"], i, np.array(WER_WIDTHS), f25["tau_prec"])
-        wer.append(dict(ratio=f"{i:g}", values=[f"{max(1 - x, 0.0):.2e}" for x in p]))
+    wer = _wer_table(f25["delta"], f25["tau_prec"])
     return dict(delta25=f"{f25['delta']:.1f}", delta85=f"{f85['delta']:.1f}",
                 retention25=_duration(retention_time(f25["delta"])), retention85=_duration(retention_time(f85["delta"])),
                 rows=rows, wer=wer, widths=[f"{w * 1e9:g} ns" for w in WER_WIDTHS])
+
+
+def _wer_table(delta: float, tau_prec: float) -> list[dict]:
+    """Write-error rates after step pulses of WER_RATIOS x I_c0 and WER_WIDTHS, as printed.  The
+    critical angles need scipy's root finder, whose import costs more than a cached build: the
+    table is remembered by its two numbers in compactgen's cache (compactgen/cache.py)."""
+    def compute():
+        wer = []
+        for i in WER_RATIOS:
+            p = precessional_probability(delta, i, np.array(WER_WIDTHS), tau_prec)
+            wer.append(dict(ratio=f"{i:g}", values=[f"{max(1 - x, 0.0):.2e}" for x in p]))
+        return wer
+
+    if not all(type(x) is float and math.isfinite(x) for x in (delta, tau_prec)):
+        return compute()
+    from . import cache
+
+    def valid(wer):
+        return (isinstance(wer, list) and len(wer) == len(WER_RATIOS)
+                and all(isinstance(r, dict) and set(r) == {"ratio", "values"} and isinstance(r["ratio"], str)
+                        and isinstance(r["values"], list) and len(r["values"]) == len(WER_WIDTHS)
+                        and all(isinstance(v, str) for v in r["values"]) for r in wer))
+
+    key = (f"{cache.source_digest('thermal_report.py', 'analytic.py', 'physics/switching.py')} "
+           f"sympy {cache.package_version('sympy')} numpy {cache.package_version('numpy')} "
+           f"scipy {cache.package_version('scipy')} delta {delta.hex()} tau_prec {tau_prec.hex()}")
+    return cache.remembered("numbers", key, compute, valid, stem="wer")
 
 
 def _duration(seconds: float) -> str:

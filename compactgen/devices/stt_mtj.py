@@ -11,7 +11,6 @@ import math
 
 import numpy as np
 import sympy as sp
-from scipy.optimize import brentq
 
 from ..benches import (Bench, Dc, Metric, Pulse, crossing_time, dc_curve_deviation_factory, dc_resistance_at,
                        extreme_value, settled_value, switching_time)
@@ -197,6 +196,8 @@ def bias_for_current(model: ReferenceModel, current: float, v_limit: float) -> f
 
     if f(sign * v_limit) * sign < 0:
         return None
+    from scipy.optimize import brentq  # here, not at import: `compactgen build` needs no scipy
+
     return float(brentq(f, 0.0, sign * v_limit, xtol=1e-15, rtol=1e-14))
 
 

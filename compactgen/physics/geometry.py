@@ -18,12 +18,28 @@ def cylinder_demag_nz(diameter: float, thickness: float) -> float:
 
     derived by Fourier transform of the shape function (PHYSICS 1.3); tabulated values in
     D.-X. Chen, J. A. Brug and R. B. Goldfarb, IEEE Trans. Magn. 27, 3601 (1991).
-    Evaluated numerically at build time: a geometry-derived number, not a circuit equation.
+    Evaluated numerically at build time: a geometry-derived number, not a circuit equation
+    (remembered per diameter and thickness in compactgen's cache, compactgen/cache.py: scipy's
+    import and the quadrature take longer than a whole cached build).
     """
-    from scipy import integrate, special
+    from .. import cache
 
     if diameter <= 0 or thickness <= 0:
         raise ValueError("diameter and thickness must be positive")
+    key = (f"{cache.source_digest('physics/geometry.py')} scipy {cache.package_version('scipy')} "
+           f"cylinder_demag_nz {float(diameter).hex()} {float(thickness).hex()}")
+    value = cache.remembered("numbers", key, lambda: float(_cylinder_demag_nz(diameter, thickness)),
+                             lambda v: isinstance(v, float) and math.isfinite(v), stem="demag")
+    # the quadrature's result is a numpy.float64, and its repr is part of the parameter digest
+    # printed in every generated file (render.param_digest): the remembered number keeps the type
+    import numpy as np
+
+    return np.float64(value)
+
+
+def _cylinder_demag_nz(diameter: float, thickness: float) -> float:
+    from scipy import integrate, special
+
     r = diameter / 2.0
     a = thickness / r
 
