@@ -4,7 +4,9 @@ The root is ``$COMPACTGEN_CACHE``, or ``~/.cache/compactgen``.  Subfolders: ``os
 Verilog-A, sim/vacask.py), ``render`` (the printed ngspice expressions of a model,
 render.ngspice_context), ``units`` (unit conversions learnt from pint, units.py), ``numbers``
 (results of slow library calls: the CODATA values of scipy.constants, constants.py; the
-cylinder demagnetising factor, physics/geometry.py).
+cylinder demagnetising factor, physics/geometry.py; the write-error-rate table,
+thermal_report.py), ``sympy`` (slow symbolic derivations: the pinning field,
+physics/domain_wall.py).
 
 A cache only ever saves time: an entry is written under a temporary name and moved into place
 (os.replace), so a reader sees a whole file or none; an entry that cannot be read or does not
@@ -132,6 +134,7 @@ def prune(folder: Path, keep: int = MAX_ENTRIES) -> None:
             p.unlink()
 
 
+@functools.lru_cache(maxsize=None)
 def package_version(name: str) -> str:
     """The installed version of a distribution ("none" if it is not installed), without importing it."""
     from importlib import metadata

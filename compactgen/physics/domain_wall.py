@@ -116,10 +116,43 @@ def edge_barrier_energy(q, ms, h_edge, x_lo, x_hi, length):
 
 
 def pinning_field(energy, q, ms, charge=1):
-    """H_pin(q) = -(Q/(2 mu0 Ms)) d sigma_pin/dq  [A/m] (PHYSICS 6.2), derived symbolically."""
+    """H_pin(q) = -(Q/(2 mu0 Ms)) d sigma_pin/dq  [A/m] (PHYSICS 6.2), derived symbolically.
+
+    The simplification takes longer than the rest of a cached build, so its result is remembered
+    in compactgen's cache (compactgen/cache.py, folder ``sympy``) by the srepr of the arguments and
+    read back with eval(srepr) == expression, SymPy's own round trip."""
+    from .. import cache
+
+    done = {}
+
+    def compute():
+        done["field"] = _pinning_field(energy, q, ms, charge)
+        return sp.srepr(done["field"])
+
+    def valid(text):
+        done["read"] = _from_srepr(text)
+        return done["read"].free_symbols <= sp.sympify(energy).free_symbols | {q, ms}
+
+    key = (f"{cache.source_digest('physics/domain_wall.py')} sympy {sp.__version__} pinning_field "
+           + "|".join(sp.srepr(sp.sympify(x)) for x in (energy, q, ms, charge)))
+    text = cache.remembered("sympy", key, compute, lambda t: isinstance(t, str) and valid(t), stem="pinning")
+    return done["field"] if "field" in done else done["read"]
+
+
+def _pinning_field(energy, q, ms, charge):
     field = -charge / (2 * mu0 * ms) * sp.diff(energy, q)
     return sp.expand(field).replace(lambda e: e.is_Mul and any(isinstance(f, sp.sinh) for f in e.args),
                                     lambda e: sp.trigsimp(e))
+
+
+_SYMPY_NAMES: dict = {}
+
+
+def _from_srepr(text: str):
+    """The expression an srepr string describes (only SymPy's names are in reach)."""
+    if not _SYMPY_NAMES:
+        exec("from sympy import *", _SYMPY_NAMES)  # noqa: S102 (a fixed import, no data)
+    return eval(text, {"__builtins__": {}}, _SYMPY_NAMES)  # noqa: S307 (an entry written by pinning_field)
 
 
 # ---- closed forms (datasheet figures and bench expectations) -------------------------------
