@@ -1,8 +1,8 @@
 """Cost of the generated models next to BSIM4, every path measured side by side in one run.
 
 For each example card (one device kind each) and N = 1, 10, 100 instances under one pulse drive (a
-write bench of the card's own verification suite, each instance with its own initial tilt or wall
-position), the same stimulus, transient settings and length run:
+write bench of the card's own verification suite, each instance with its own wall position or
+device temperature), the same stimulus, transient settings and length run:
 
 * ngspice, compiled model (NAME.osdi.lib + NAME.osdi, OSDI), and ngspice, B-source library (NAME.lib);
 * ngspice, N BSIM4 transistors (built-in level 54) with a load resistor each;
@@ -61,27 +61,26 @@ def pulse_vc(p: Pulse) -> str:
 
 
 def spread(ir, n: int) -> tuple[str, list[float]]:
-    """A per-instance parameter and its values, so every instance follows its own trajectory."""
+    """A per-instance parameter and its values, so every instance follows its own trajectory: the
+    wall's start position (dw-mtj), else a device temperature offset of 0-5 K (the free layer keeps
+    its default rest state, whose thermal angle follows the temperature)."""
     names = ir.params.names()
-    if "tilt0" in names:
-        return "tilt0", [0.05 + 0.05 * i / max(n, 1) for i in range(n)]
     if "wall0" in names:
         return "wall0", [2e-9 * i / max(n, 1) for i in range(n)]
+    if "dtemp" in names:
+        return "dtemp", [5.0 * i / max(n, 1) for i in range(n)]
     return "", [0.0] * n
 
 
 def replicate(text: str, prefix: str, n: int, name: str, values: list[float]) -> str:
-    """Repeat the harness deck's device line n times, each instance with its own value of name
-    (with tilt0, thermal_rest=0 so the tilt is used)."""
+    """Repeat the harness deck's device line n times, each instance with its own value of name."""
     out = []
     for line in text.splitlines():
         if line.startswith(prefix):
             head, _, rest = line.partition(" ")
             for i, v in enumerate(values):
                 extra = f" {name}={fmt(v)}" if name else ""
-                if name == "tilt0":
-                    extra += " thermal_rest=0.0"
-                inst = " ".join(w for w in rest.split() if not (name and w.split("=")[0] in (name, "thermal_rest")))
+                inst = " ".join(w for w in rest.split() if not (name and w.split("=")[0] == name))
                 out.append(f"{head}{i} {inst}{extra}")
         else:
             out.append(line)
@@ -129,7 +128,7 @@ def _field(log: str, label: str, what: str) -> float:
 def run_ngspice(deck: str, osdi: Path, work: Path) -> Run:
     (work / "deck.cir").write_text(deck)
     (work / ".spiceinit").write_text(SPICEINIT + f"osdi {osdi}\n")
-    proc = subprocess.run([ngspice_command(), "-b", "deck.cir"], cwd=work, capture_output=True, text=True,
+    proc = subprocess.run([ngspice_command(), "-b", "-r", "out.raw", "deck.cir"], cwd=work, capture_output=True, text=True,
                           timeout=7200)
     log = proc.stdout + proc.stderr
     return Run(_field(log, "Transient analysis time", "ngspice"), int(_field(log, "Accepted timepoints", "ngspice")),
@@ -179,7 +178,7 @@ def main() -> None:
         ir = card.ir()
         benches = [b for b in card.device.benches(ir, card.values)
                    if b.analysis == "tran" and any(isinstance(w, Pulse) for w in b.drives.values())
-                   and not b.not_applicable]
+                   and not b.not_applicable and b.temperature is None]
         bench = benches[len(benches) // 2]
         with tempfile.TemporaryDirectory(prefix="compactgen-bench-") as tmp:
             tmp = Path(tmp)

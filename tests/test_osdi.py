@@ -124,9 +124,10 @@ def test_compiled_library_has_the_b_source_librarys_interface(card_path):
     assert pc.pop("warn") == "1.0"  # the compiled form's own switch for its range warning
     assert pc == pb
     sb, sc = _sections(bsrc), _sections(comp)
-    assert sorted(sb) == sorted(sc)
-    for sec in set(sb) - {"model"}:  # the corner and Monte Carlo sections (section model holds the device)
-        params = lambda lines: [x for x in lines if x.startswith(".param")]
+    assert sorted(sb) == sorted(sc) == ["ff", "mc", "mc_global", "mc_local", "ss", "tt"]
+    assert all(sec.count(f".subckt {ir.name} ") == 1 for sec in ("\n".join(v) for v in [*sb.values(), *sc.values()]))
+    for sec in sb:  # the same globals (each section then holds its own copy of the subcircuit)
+        params = lambda lines: [x for x in lines if x.startswith(f".param {ir.name}_")]
         assert params(sc[sec]) == params(sb[sec]), sec
     model = re.search(rf"^\.model {ir.name}_dev {ir.name}\n((?:\+ [^\n]*\n)+)", comp, re.M).group(1)
     inst = re.search(rf"^N1 {' '.join(t.name for t in ir.terminals)} {ir.name}_dev\n((?:\+ [^\n]*\n)+)",
@@ -217,3 +218,34 @@ def test_a_file_that_is_not_a_compiled_model_is_named_in_the_error(tmp_path, ngs
     bad.write_text("not a shared object")
     with pytest.raises(SimulationError, match=r"could not load the compiled model .*pmtj35_demo\.osdi"):
         run_ngspice("x\nV1 a 0 1\nR1 a 0 1k\n.op\n", osdi={"pmtj35_demo": bad})
+
+
+@pytest.mark.simulator
+@pytest.mark.parametrize("form", ["bsource", "osdi"])
+def test_a_renamed_library_and_a_namesake_in_another_folder_each_give_their_own_model(tmp_path, form, ngspice,
+                                                                                       ngspice_osdi):
+    """libngspice 46 keeps a library section it has read under the name a `.lib` line gave it: a
+    section that included `NAME.lib model` by its own file name read the first such file of the
+    session again (measured: a changed card's R_AP came out as the old card's). Each section now holds
+    the whole subcircuit, so the file can be renamed, and namesakes do not mix."""
+    from compactgen.sim import NgspiceWorker
+
+    card = load_card(EXAMPLES / "pmtj35_demo.toml")
+    assert 'ra = "4.0 ohm*um^2"' in card.text
+    r_ap = {}
+    with NgspiceWorker() as worker:  # one ngspice session for both libraries (B-source form)
+        for folder, ra in (("a", "4.0"), ("b", "6.0")):
+            (tmp_path / folder).mkdir()
+            (tmp_path / folder / "c.toml").write_text(card.text.replace('ra = "4.0 ohm*um^2"', f'ra = "{ra} ohm*um^2"'))
+            c = load_card(tmp_path / folder / "c.toml")
+            files = build_files(c)
+            renamed = tmp_path / folder / f"renamed_{folder}.lib"
+            renamed.write_text(files["pmtj35_demo.osdi.lib" if form == "osdi" else "pmtj35_demo.lib"])
+            (tmp_path / folder / "pmtj35_demo.osdi").write_bytes(files["pmtj35_demo.osdi"])
+            deck = f"namesakes\n.lib {renamed} tt\nX1 t 0 pmtj35_demo state0=-1\nVt t 0 0.1\n.op\n"
+            if form == "osdi":  # another compiled file of the same module name: the driver takes a fresh worker
+                data = run_ngspice(deck, osdi={c.name: tmp_path / folder / "pmtj35_demo.osdi"})
+            else:
+                data = worker.run(deck)
+            r_ap[folder] = 0.1 / -data["vt#branch"][0]
+    assert r_ap["b"] / r_ap["a"] == pytest.approx(1.5, rel=1e-6)
