@@ -10,8 +10,8 @@ import numpy as np
 from . import __version__
 from .verify import SuiteResult
 
-COLORS = {"reference": "black", "ngspice": "tab:blue", "vacask": "tab:orange"}
-STYLES = {"reference": "-", "ngspice": "--", "vacask": ":"}
+COLORS = {"reference": "black", "ngspice": "tab:blue", "ngspice-osdi": "tab:green", "vacask": "tab:orange"}
+STYLES = {"reference": "-", "ngspice": "--", "ngspice-osdi": "-.", "vacask": ":"}
 
 
 def _figure():
@@ -92,7 +92,14 @@ def verify_html(result: SuiteResult, title: str = "", notes: list[str] | None = 
                     f"<td>{html.escape(r.unit)}</td><td>{_fmt(r.reference)}</td>{vals}<td>{r.error:.3f}</td>"
                     f"<td>{html.escape(r.tolerance)}</td><td title='{html.escape(r.reason)}'>"
                     f"{'pass' if r.passed else 'FAIL ' + html.escape(r.note)}</td></tr>")
-    sims = "".join(f"<th>{s}</th>" for s in result.simulators)
+    from .verify import REFERENCE_RTOL, SIMULATOR_TEXT
+
+    sims = "".join(f"<th title='{html.escape(SIMULATOR_TEXT.get(s, s))}'>{s}</th>" for s in result.simulators)
+    legend = "; ".join(f"{s}: {SIMULATOR_TEXT.get(s, s)}" for s in result.simulators)
+    skipped = "".join(f"<li><b>{html.escape(n)}</b> not applicable: {html.escape(why)}</li>"
+                      for n, _, why in result.not_applicable)
+    skipped += "".join(f"<li><b>{html.escape(n)}</b> finding: {html.escape(f)}</li>" for n, f in result.findings)
+    notes = list(notes or []) + ([f"Simulators: {legend}."] if legend else [])
     plots = []
     for run in result.runs:
         png = bench_plot(run)
@@ -107,8 +114,8 @@ def verify_html(result: SuiteResult, title: str = "", notes: list[str] | None = 
 td,th{{border:1px solid #ccc;padding:3px 6px}} tr.fail{{background:#fdd}} tr.pass td:last-child{{color:#070}}</style>
 </head><body><h1>{html.escape(title or 'Verification of ' + result.model)}</h1>
 <p>compactgen {__version__}. Verdict: <b>{verdict}</b> ({sum(r.passed for r in result.rows)} of {len(result.rows)} metrics).
-Every bench ran on the Python reference (scipy DOP853, rtol 1e-10) and in each simulator; the error column is
-|simulator - reference| divided by the tolerance (at most 1 passes).</p>{extra}
+Every bench ran on the Python reference (scipy solve_ivp, DOP853 or Radau as the bench says, rtol {REFERENCE_RTOL:g}) and in each simulator; the error column is
+|simulator - reference| divided by the tolerance (at most 1 passes).</p>{extra}{"<ul>" + skipped + "</ul>" if skipped else ""}
 <table><tr><th>bench</th><th>metric</th><th>unit</th><th>reference</th>{sims}<th>error/tol</th><th>tolerance</th><th>verdict</th></tr>
 {''.join(rows)}</table><h2>Why these tolerances</h2><ul>{reason_html}</ul><h2>Waveforms</h2>{''.join(plots)}</body></html>"""
 
