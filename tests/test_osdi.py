@@ -249,3 +249,22 @@ def test_a_renamed_library_and_a_namesake_in_another_folder_each_give_their_own_
                 data = worker.run(deck)
             r_ap[folder] = 0.1 / -data["vt#branch"][0]
     assert r_ap["b"] / r_ap["a"] == pytest.approx(1.5, rel=1e-6)
+
+
+def test_verification_report_names_every_path_and_what_did_not_apply():
+    from compactgen.report import verify_html
+    from compactgen.verify import SIMULATOR_TEXT, SIMULATORS, Row, SuiteResult
+
+    result = SuiteResult(model="m", simulators=SIMULATORS,
+                         not_applicable=[("write_to_p_3ic0", "write", "needs more than v_max = 1.5 V")],
+                         findings=[("write_to_p_1.5ic0", "rings back into its old well")])
+    from compactgen.verify import BenchRun
+
+    row = Row("rv", "R at +0.10 V", "ohm", 1.0, {s: 1.0 for s in SIMULATORS}, 0.0, "0.001 rel", "why", True)
+    result.runs.append(BenchRun(bench=type("B", (), {"name": "rv", "analysis": "dc", "plot": None})(), traces={},
+                                rows=[row]))
+    page = verify_html(result)
+    for sim in SIMULATORS:
+        assert f">{sim}</th>" in page and SIMULATOR_TEXT[sim] in page
+    assert "write_to_p_3ic0</b> not applicable: needs more than v_max = 1.5 V" in page
+    assert "write_to_p_1.5ic0</b> finding: rings back" in page
