@@ -14,9 +14,9 @@ EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 if __name__ == "__main__":
     import numba
 
-    from compactgen.card import load_card
-    from compactgen.reference import figures
-    from compactgen.stochastic import StochasticModel
+    from compactgen.model.card import load_card
+    from compactgen.model.evaluate import figures
+    from compactgen.statistics.stochastic import StochasticModel
 
     n = int(sys.argv[1]) if len(sys.argv) > 1 else 10_000
     t_end = (float(sys.argv[2]) if len(sys.argv) > 2 else 20.0) * 1e-9

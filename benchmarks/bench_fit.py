@@ -29,15 +29,14 @@ def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--seeds", type=int, default=0, help="coverage study over this many noise seeds")
     args = ap.parse_args()
-    from compactgen.calibrate.commands import (DEMO_CARD, DEMO_TRUTH, DW_DEMO_CARD, DW_DEMO_TRUTH, demo_data_files,
-                                               dw_demo_data_files)
-    from compactgen.calibrate.data import read_all
-    from compactgen.calibrate.models import nuisance_from
-    from compactgen.calibrate.result import write_fitted_card
-    from compactgen.calibrate.runner import fit_card
-    from compactgen.calibrate.synthetic import make_stt_data, make_wall_data
-    from compactgen.calibrate.wall import steady_state, wall_functions
-    from compactgen.card import load_card
+    from compactgen.jobs.calibrate.commands import DEMO_CARD, DEMO_TRUTH, DW_DEMO_CARD, DW_DEMO_TRUTH, demo_data_files, dw_demo_data_files
+    from compactgen.jobs.calibrate.data import read_all
+    from compactgen.jobs.calibrate.models import nuisance_from
+    from compactgen.jobs.calibrate.result import write_fitted_card
+    from compactgen.jobs.calibrate.runner import fit_card
+    from compactgen.jobs.calibrate.synthetic import make_stt_data, make_wall_data
+    from compactgen.jobs.calibrate.wall import steady_state, wall_functions
+    from compactgen.model.card import load_card
 
     files = demo_data_files()
     t0 = time.perf_counter()

@@ -29,10 +29,11 @@ import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
-from compactgen import render, verify
-from compactgen.benches import Pulse
-from compactgen.card import load_card
-from compactgen.printing.base import format_number as fmt
+from compactgen.targets import render
+from compactgen.harness import verify
+from compactgen.harness.benches import Pulse
+from compactgen.model.card import load_card
+from compactgen.targets.printing.base import format_number as fmt
 from compactgen.sim import compile_va_cached
 from compactgen.sim.ngspice import SPICEINIT
 from compactgen.sim.tools import ngspice_command, vacask_command

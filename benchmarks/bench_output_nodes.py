@@ -20,8 +20,9 @@ import tempfile
 import time
 from pathlib import Path
 
-from compactgen import render, verify
-from compactgen.card import load_card
+from compactgen.targets import render
+from compactgen.harness import verify
+from compactgen.model.card import load_card
 from compactgen.sim import NgspiceWorker
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -29,10 +29,11 @@ from pathlib import Path
 
 import numpy as np
 
-from compactgen import render, verify
-from compactgen.card import load_card
-from compactgen.printing.base import format_number as fmt
-from compactgen.reference import figures
+from compactgen.targets import render
+from compactgen.harness import verify
+from compactgen.model.card import load_card
+from compactgen.targets.printing.base import format_number as fmt
+from compactgen.model.evaluate import figures
 from compactgen.sim import NgspiceWorker, compile_va_cached, run_vacask
 
 ROOT = Path(__file__).resolve().parent.parent

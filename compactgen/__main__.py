@@ -1,6 +1,6 @@
 """`python -m compactgen ...` is the same as the `compactgen` command."""
 import sys
 
-from .cli import main
+from compactgen.cli import main
 
 sys.exit(main())

@@ -46,7 +46,7 @@ def source_digest(*relative: str) -> str:
     """sha256 of compactgen's version and of the source files ``relative`` (paths inside the
     package, e.g. "render.py"): part of every key, so that an entry written by other code (a
     development checkout between releases included) is never read."""
-    from . import __version__
+    from compactgen import __version__
 
     h = hashlib.sha256(f"compactgen {__version__}".encode())
     for rel in relative:

@@ -10,8 +10,8 @@ import sys
 import threading
 from pathlib import Path
 
-from . import __version__
-from .errors import CompactgenError, InputError, Terminated, VerificationFailed
+from compactgen import __version__
+from compactgen.errors import CompactgenError, InputError, Terminated, VerificationFailed
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 
@@ -75,7 +75,7 @@ def stop_on_signals():
     if threading.current_thread() is not threading.main_thread():
         yield
         return
-    from .sim.tools import resume_children, stop_children
+    from compactgen.sim.tools import resume_children, stop_children
 
     stopping = []
 
@@ -102,8 +102,8 @@ def _extensions():
     """Subcommands that live with their feature (fit, release, ...): each module may define
     ``add_commands(subparsers)``."""
     out = []
-    for mod in ("compactgen.calibrate.commands", "compactgen.release", "compactgen.thermal_commands",
-                "compactgen.card_sweep", "compactgen.range_report"):
+    for mod in ("compactgen.jobs.calibrate.commands", "compactgen.jobs.release",
+                "compactgen.jobs.sample_cards", "compactgen.jobs.range_report"):
         try:
             m = __import__(mod, fromlist=["add_commands"])
         except ModuleNotFoundError as exc:
@@ -120,7 +120,7 @@ def say(msg: str) -> None:
 
 
 def cmd_init(args) -> int:
-    from .card import parse_card, starter_card
+    from compactgen.model.card import parse_card, starter_card
 
     out = Path(args.output)
     if out.exists():
@@ -134,8 +134,8 @@ def cmd_init(args) -> int:
 
 
 def cmd_build(args) -> int:
-    from .build import build_files, write_files
-    from .card import load_card
+    from compactgen.jobs.build import build_files, write_files
+    from compactgen.model.card import load_card
 
     card = load_card(args.card)
     files = build_files(card)
@@ -153,8 +153,8 @@ def cmd_build(args) -> int:
 
 def load_target(target: str):
     """A card file, or a build folder (its NAME.card.toml, checked against its model files)."""
-    from .build import build_files
-    from .card import load_card
+    from compactgen.jobs.build import build_files
+    from compactgen.model.card import load_card
 
     path = Path(target)
     if path.is_dir():
@@ -174,9 +174,9 @@ def load_target(target: str):
 
 
 def cmd_verify(args) -> int:
-    from .verify import SIMULATORS
+    from compactgen.harness.verify import SIMULATORS
 
-    from .verify import parse_simulators
+    from compactgen.harness.verify import parse_simulators
 
     sims = parse_simulators(args.sim, say)
     card = load_target(args.target)
@@ -185,7 +185,7 @@ def cmd_verify(args) -> int:
 
 
 def verify_card(card, sims=None, report: str | None = None, title: str = ""):
-    from .verify import default_simulators, progress_printer, run_suite
+    from compactgen.harness.verify import default_simulators, progress_printer, run_suite
 
     sims = default_simulators(say) if sims is None else sims
     ir = card.ir()
@@ -194,8 +194,8 @@ def verify_card(card, sims=None, report: str | None = None, title: str = ""):
     result = run_suite(ir, benches, simulators=sims, progress=progress_printer())
     print(result.table())
     if report:
-        from .build import write_files
-        from .report import verify_html
+        from compactgen.jobs.build import write_files
+        from compactgen.harness.verify_report import verify_html
 
         rp = Path(report)
         write_files({rp.name: verify_html(result, title)}, rp.parent if str(rp.parent) else ".")
@@ -205,8 +205,8 @@ def verify_card(card, sims=None, report: str | None = None, title: str = ""):
 
 def cmd_demo(args) -> int:
     """The bundled example end to end; later stages (fit, release) join as they exist."""
-    from .build import build_files, write_files
-    from .card import load_card
+    from compactgen.jobs.build import build_files, write_files
+    from compactgen.model.card import load_card
 
     out = Path(args.output)
     out.mkdir(parents=True, exist_ok=True)
@@ -226,7 +226,7 @@ def cmd_demo(args) -> int:
         ok &= result.passed
         if card.kind == "stt-mtj" and not thermal_done and os.environ.get("COMPACTGEN_DEMO_THERMAL", "1") != "0":
             thermal_done = True  # once, for the bundled device
-            from .thermal_report import demo_thermal
+            from compactgen.statistics.thermal_report import demo_thermal
 
             say(f"thermal demo (switching probability, retention, corners): set COMPACTGEN_DEMO_THERMAL=0 to skip")
             say(f"wrote {demo_thermal(card_path, out / card.name, progress=say)}")
@@ -237,24 +237,24 @@ def cmd_demo(args) -> int:
 
 
 def _fitted_demo(out: Path) -> list[Path]:
-    """The demo's fit steps, when compactgen.calibrate is present: the cards fitted to the bundled
+    """The demo's fit steps, when compactgen.jobs.calibrate is present: the cards fitted to the bundled
     synthetic data (stt-mtj, dw-mtj) join the build and verify."""
     try:
-        from .calibrate.commands import demo_fits
+        from compactgen.jobs.calibrate.commands import demo_fits
     except ModuleNotFoundError as exc:
-        if exc.name and "compactgen.calibrate.commands".startswith(exc.name):
+        if exc.name and "compactgen.jobs.calibrate.commands".startswith(exc.name):
             return []
         raise
     return demo_fits(out / "fit")
 
 
 def _demo_release(out: Path, runs: dict) -> bool:
-    """The demo's release step, when compactgen.release is present: 1.0.0 of the example device,
+    """The demo's release step, when compactgen.jobs.release is present: 1.0.0 of the example device,
     1.1.0 of its re-fit compared against it."""
     try:
-        from .release.commands import demo_release_step
+        from compactgen.jobs.release.commands import demo_release_step
     except ModuleNotFoundError as exc:
-        if exc.name and "compactgen.release.commands".startswith(exc.name):
+        if exc.name and "compactgen.jobs.release.commands".startswith(exc.name):
             return True
         raise
     return demo_release_step(out, runs)

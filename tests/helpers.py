@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from compactgen.card import Card, load_card, parse_card, starter_card
+from compactgen.model.card import Card, load_card, parse_card, starter_card
 
 ROOT = Path(__file__).resolve().parent.parent
 EXAMPLES = ROOT / "examples"

@@ -10,9 +10,11 @@ from pathlib import Path
 
 import pytest
 
-from compactgen import cache, render, units
-from compactgen.build import build_files
-from compactgen.card import load_card, parse_card
+from compactgen import cache
+from compactgen.targets import render
+from compactgen.model import units
+from compactgen.jobs.build import build_files
+from compactgen.model.card import load_card, parse_card
 from compactgen.devices import get_kind, kinds
 
 from helpers import EXAMPLES

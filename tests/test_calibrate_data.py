@@ -9,9 +9,9 @@ import numpy as np
 import pytest
 from scipy import constants as C
 
-from compactgen.calibrate.data import read_dataset
-from compactgen.card import load_card
-from compactgen.calibrate.models import stt_blocks, stt_functions
+from compactgen.jobs.calibrate.data import read_dataset
+from compactgen.model.card import load_card
+from compactgen.jobs.calibrate.models import stt_blocks, stt_functions
 from compactgen.errors import DataError
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"

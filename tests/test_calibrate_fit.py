@@ -9,12 +9,12 @@ import numpy as np
 import pytest
 from scipy import optimize
 
-from compactgen.calibrate.data import read_all
-from compactgen.calibrate.fit import Block, deviance_residuals, fit
-from compactgen.calibrate.models import LOG_PARAMS, NUISANCE_SPECS, nuisance_from, stt_blocks, stt_functions
-from compactgen.calibrate.synthetic import make_stt_data
-from compactgen.card import load_card
-from compactgen.params import ParamSpec
+from compactgen.jobs.calibrate.data import read_all
+from compactgen.jobs.calibrate.fit import Block, deviance_residuals, fit
+from compactgen.jobs.calibrate.models import LOG_PARAMS, NUISANCE_SPECS, nuisance_from, stt_blocks, stt_functions
+from compactgen.jobs.calibrate.synthetic import make_stt_data
+from compactgen.model.card import load_card
+from compactgen.model.params import ParamSpec
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 

@@ -1,7 +1,7 @@
 """Physics used by the fit, against the check values of PHYSICS.md (sections 4, 6) and independent
 numerics (scipy quadrature, root finding).  Each check names its published source.
 
-Constants come from scipy.constants (CODATA 2022), independently of compactgen.constants.
+Constants come from scipy.constants (CODATA 2022), independently of compactgen.model.constants.
 """
 from __future__ import annotations
 
@@ -14,8 +14,8 @@ import sympy as sp
 from scipy import constants as C
 from scipy import integrate, optimize
 
-from compactgen.calibrate import wall
-from compactgen.calibrate.models import theta_min
+from compactgen.jobs.calibrate import wall
+from compactgen.jobs.calibrate.models import theta_min
 from compactgen.devices import get_kind
 from compactgen.physics import coercivity, domain_wall, switching, switching_probability, thermal
 from compactgen.physics.constants import const_values

@@ -11,16 +11,16 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from compactgen.build import build_files
+from compactgen.jobs.build import build_files
 from scipy import constants as C
 
-from compactgen.calibrate import dw_fit
-from compactgen.calibrate.commands import demo_data_files, dw_demo_data_files, run_fit
-from compactgen.calibrate.data import read_all, read_dataset
-from compactgen.calibrate.models import nuisance_from
-from compactgen.calibrate.runner import fit_card
-from compactgen.calibrate.synthetic import make_wall_data
-from compactgen.card import load_card
+from compactgen.jobs.calibrate import dw_fit
+from compactgen.jobs.calibrate.commands import demo_data_files, dw_demo_data_files, run_fit
+from compactgen.jobs.calibrate.data import read_all, read_dataset
+from compactgen.jobs.calibrate.models import nuisance_from
+from compactgen.jobs.calibrate.runner import fit_card
+from compactgen.jobs.calibrate.synthetic import make_wall_data
+from compactgen.model.card import load_card
 from compactgen.cli import main
 from compactgen.errors import DataError, InputError
 
@@ -52,7 +52,7 @@ def test_recovers_the_truth_from_the_example_data(example_fit):
     # the demo card starts far away: most parameters start more than 2 s.e. from the truth
     assert sum(abs(cf.start[n] - tv[n]) > 2 * cf.stderr[n] for n in cf.free) >= 5
     # derived figures agree with the truth card's own figures within 2 s.e.
-    from compactgen.reference import figures
+    from compactgen.model.evaluate import figures
 
     tf = figures(truth.ir())
     assert abs(cf.figures["delta"][1] - tf["delta"]) <= 2 * cf.figures["delta"][2]
@@ -258,7 +258,7 @@ def test_switching_pulses_given_as_voltages(tmp_path):
     a file written in volts fits to the same switching parameters as the same pulses in amperes."""
     from scipy.optimize import brentq
 
-    from compactgen.calibrate.models import stt_functions
+    from compactgen.jobs.calibrate.models import stt_functions
 
     truth = load_card(TRUTH)
     fn = stt_functions(truth)
@@ -303,7 +303,7 @@ def test_geometry_and_temperature_come_from_the_data(tmp_path):
 
 def test_points_near_the_critical_current_are_flagged(tmp_path):
     truth = load_card(TRUTH)
-    from compactgen.calibrate.models import stt_functions
+    from compactgen.jobs.calibrate.models import stt_functions
 
     fn = stt_functions(truth)
     ic0 = fn.i_c0(*fn.args(truth.values))

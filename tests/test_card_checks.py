@@ -10,12 +10,12 @@ import re
 
 import pytest
 
-from compactgen.card import load_card, parse_card, starter_card
+from compactgen.model.card import load_card, parse_card, starter_card
 from compactgen.cli import main
-from compactgen.constants import MU0
+from compactgen.model.constants import MU0
 from compactgen.errors import CardError
-from compactgen.params import RESERVED, reserved_reason
-from compactgen.reference import figures
+from compactgen.model.params import RESERVED, reserved_reason
+from compactgen.model.evaluate import figures
 
 from helpers import card_with
 
@@ -183,7 +183,7 @@ def test_reserved_model_name_init_and_build_exit_2_and_write_nothing(tmp_path, w
 
 def test_reserved_groups_name_the_identifiers_our_decks_use():
     """The 'generated' group lists names our own deck templates really use at model level."""
-    from compactgen.render import TEMPLATE_DIR
+    from compactgen.targets.render import TEMPLATE_DIR
 
     vacask = "".join(p.read_text() for p in (TEMPLATE_DIR / "vacask").glob("*.j2"))
     for used in re.findall(r"^\s*model (\w+) ", vacask.replace("{{ m.name }}", ""), re.MULTILINE):

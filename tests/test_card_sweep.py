@@ -9,11 +9,11 @@ import math
 import numpy as np
 import pytest
 
-from compactgen.benches import Bench, Metric
-from compactgen.card import parse_card, starter_card
-from compactgen.card_sweep import draw_values, run_card, sweep, table
+from compactgen.harness.benches import Bench, Metric
+from compactgen.model.card import parse_card, starter_card
+from compactgen.jobs.sample_cards import draw_values, run_card, sweep, table
 from compactgen.devices.stt_mtj import POINT_BUDGET
-from compactgen.verify import _compare, run_suite
+from compactgen.harness.verify import _compare, run_suite
 
 
 def test_nan_is_never_a_pass() -> None:

@@ -10,10 +10,11 @@ import jinja2
 import numpy as np
 import pytest
 
-from compactgen.benches import crossing_time
-from compactgen.build import build_files, write_files
-from compactgen.card import load_card
-from compactgen.reference import ReferenceModel, figures
+from compactgen.harness.benches import crossing_time
+from compactgen.jobs.build import build_files, write_files
+from compactgen.model.card import load_card
+from compactgen.harness.reference import ReferenceModel
+from compactgen.model.evaluate import figures
 from compactgen.sim import run_ngspice
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -204,7 +205,7 @@ WHY_HOLD = ("hold: m_z stays within 0.01 of its starting pole (the thermal initi
 def _array_instance(c, data, cell: str, section: str) -> dict:
     """Instance values of a cell as the run used them: its state, the section's corner and the
     Monte Carlo draws read back from the library's draw sources (0 outside the mc section)."""
-    from compactgen.devices.variation import CORNERS
+    from compactgen.model.variation import CORNERS
 
     inst = {"state0": ARRAY_CELLS[cell][2], "corner": CORNERS.get(section, 0.0)}
     for s in c.ir().params:

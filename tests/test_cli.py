@@ -9,7 +9,7 @@ from pathlib import Path
 
 import pytest
 
-from compactgen.card import load_card, starter_card
+from compactgen.model.card import load_card, starter_card
 from compactgen.cli import main
 
 from helpers import EXAMPLES

@@ -28,14 +28,15 @@ import pytest
 import sympy as sp
 from scipy.integrate import quad
 
-from compactgen.benches import Pulse
-from compactgen.card import load_card
+from compactgen.harness.benches import Pulse
+from compactgen.model.card import load_card
 from compactgen.devices import get_kind
 from compactgen.devices.write_line import line_drive
 from compactgen.physics import domain_wall as dwp
 from compactgen.physics import spin_orbit
 from compactgen.physics.constants import const_values
-from compactgen.reference import ReferenceModel, figures
+from compactgen.harness.reference import ReferenceModel
+from compactgen.model.evaluate import figures
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 

@@ -9,15 +9,15 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from compactgen import render
-from compactgen.corners import corner_table, format_rows, ordering_problems
-from compactgen.reference import figures
+from compactgen.targets import render
+from compactgen.statistics.corners import corner_table, format_rows, ordering_problems
+from compactgen.model.evaluate import figures
 
 from helpers import example_card
 
 
 def test_sigma_from_card_uncertainty():
-    from compactgen.card import parse_card
+    from compactgen.model.card import parse_card
 
     text = (Path(__file__).resolve().parent.parent / "examples" / "pmtj35_demo.toml").read_text()
     card = parse_card(text + '\n[uncertainty]\nra = "0.2 ohm*um^2"\n', "<fit>")

@@ -8,9 +8,9 @@ import re
 import numpy as np
 import pytest
 
-from compactgen import render
-from compactgen.build import build_files
-from compactgen.reference import figures
+from compactgen.targets import render
+from compactgen.jobs.build import build_files
+from compactgen.model.evaluate import figures
 from compactgen.sim import run_ngspice
 from compactgen.sim.options import DECK_OPTIONS, POINTS_PER_PERIOD_COROTATING as POINTS_PER_PERIOD
 from compactgen.sim.options import POINTS_PER_PERIOD as POINTS_PER_PERIOD_LAB

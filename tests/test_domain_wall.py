@@ -16,15 +16,16 @@ from scipy import constants as C
 from scipy.integrate import solve_ivp
 from scipy.optimize import minimize_scalar
 
-from compactgen.benches import Pulse, mean_rate_per_turn
-from compactgen.card import load_card
+from compactgen.harness.benches import Pulse, mean_rate_per_turn
+from compactgen.model.card import load_card
 from compactgen.devices import get_kind
 from compactgen.devices.dw_mtj import steady_sot_velocity
 from compactgen.devices.write_line import line_drive
 from compactgen.physics import domain_wall as dwp
 from compactgen.physics import tunnelling
 from compactgen.physics.constants import const_values
-from compactgen.reference import ReferenceModel, figures
+from compactgen.harness.reference import ReferenceModel
+from compactgen.model.evaluate import figures
 
 MU0 = C.mu_0
 GAMMA_E = abs(C.physical_constants["electron gyromag. ratio"][0])
@@ -359,7 +360,7 @@ def test_walker_benches_use_the_card_walker_field():
     and the Schryer & Walker closed forms (J. Appl. Phys. 45, 5406 (1974)) only at the no-DMI figure with
     dmi = 0 on the instance.  The reference meets the DMI expectations."""
     from compactgen.devices.dw_mtj import _field_benches
-    from compactgen.verify import reference_trace
+    from compactgen.harness.verify import reference_trace
 
     card = load_card(EXAMPLES / "dwtrack_demo.toml")
     ir = card.ir()
@@ -382,8 +383,8 @@ def test_walker_benches_use_the_card_walker_field():
 
 def test_walker_field_prints_in_both_back_ends():
     """h_walker is a parameter-only expression both printers can write (no root finding left in it)."""
-    from compactgen.printing.ngspice import NgspicePrinter
-    from compactgen.printing.verilog_a import VerilogAPrinter
+    from compactgen.targets.printing.ngspice import NgspicePrinter
+    from compactgen.targets.printing.verilog_a import VerilogAPrinter
 
     alpha, h_k, h_d, h_x = sp.symbols("alpha h_kwall h_dmi hx", real=True)
     expr = dwp.walker_field(alpha, h_k, h_d, h_x)

@@ -14,16 +14,17 @@ import pytest
 from scipy import constants as C
 from scipy.optimize import brentq
 
-from compactgen.card import card_text, load_card, parse_card
-from compactgen.card_sweep import draw_values
+from compactgen.model.card import card_text, load_card, parse_card
+from compactgen.jobs.sample_cards import draw_values
 from compactgen.devices import dw_mtj
 from compactgen.devices.stt_mtj import POINT_BUDGET
 from compactgen.devices.write_line import line_resistance_bench
 from compactgen.errors import CompactgenError
 from compactgen.physics import domain_wall as dwp
 from compactgen.physics.constants import const_values, gamma0
-from compactgen.reference import ReferenceModel, figures
-from compactgen.verify import reference_trace, run_suite
+from compactgen.harness.reference import ReferenceModel
+from compactgen.model.evaluate import figures
+from compactgen.harness.verify import reference_trace, run_suite
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 GAMMA0 = float(gamma0.xreplace(const_values()))

@@ -7,11 +7,11 @@ import numpy as np
 import pytest
 import sympy as sp
 
-from compactgen import render
+from compactgen.targets import render
 from compactgen.devices import get_kind
-from compactgen.ir import Branch, ModelIR, Node, State, Terminal
-from compactgen.params import ParamSpec, ParamTable
-from compactgen.reference import ReferenceModel
+from compactgen.model.ir import Branch, ModelIR, Node, State, Terminal
+from compactgen.model.params import ParamSpec, ParamTable
+from compactgen.harness.reference import ReferenceModel
 
 
 def divider_ir(nodes=("mid",), probes=None, branches=None):

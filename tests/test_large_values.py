@@ -7,13 +7,13 @@ import math
 
 import pytest
 
-from compactgen import bignum
-from compactgen.analytic import retention_time
-from compactgen.card import starter_card
+from compactgen.model import bignum
+from compactgen.statistics.analytic import retention_time
+from compactgen.model.card import starter_card
 from compactgen.cli import main
-from compactgen.release.changes import change_text, value_text
-from compactgen.release.compare import compare_figures
-from compactgen.reference import figures
+from compactgen.jobs.release.changes import change_text, value_text
+from compactgen.jobs.release.compare import compare_figures
+from compactgen.model.evaluate import figures
 
 from helpers import card_with
 

@@ -12,9 +12,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from compactgen import render
-from compactgen.build import build_files
-from compactgen.card import load_card
+from compactgen.targets import render
+from compactgen.jobs.build import build_files
+from compactgen.model.card import load_card
 from compactgen.errors import SimulatorMissing
 from compactgen.sim import run_ngspice, run_ngspice_batch
 
@@ -168,7 +168,7 @@ def test_build_without_openvaf_writes_the_rest_and_says_why(monkeypatch):
 
 
 def test_verify_leaves_the_compiled_path_out_only_where_allowed(monkeypatch):
-    from compactgen import verify
+    from compactgen.harness import verify
     from compactgen.sim import tools
 
     monkeypatch.setattr(tools, "available", lambda name: name != "ngspice-osdi")
@@ -252,13 +252,13 @@ def test_a_renamed_library_and_a_namesake_in_another_folder_each_give_their_own_
 
 
 def test_verification_report_names_every_path_and_what_did_not_apply():
-    from compactgen.report import verify_html
-    from compactgen.verify import SIMULATOR_TEXT, SIMULATORS, Row, SuiteResult
+    from compactgen.harness.verify_report import verify_html
+    from compactgen.harness.verify import SIMULATOR_TEXT, SIMULATORS, Row, SuiteResult
 
     result = SuiteResult(model="m", simulators=SIMULATORS,
                          not_applicable=[("write_to_p_3ic0", "write", "needs more than v_max = 1.5 V")],
                          findings=[("write_to_p_1.5ic0", "rings back into its old well")])
-    from compactgen.verify import BenchRun
+    from compactgen.harness.verify import BenchRun
 
     row = Row("rv", "R at +0.10 V", "ohm", 1.0, {s: 1.0 for s in SIMULATORS}, 0.0, "0.001 rel", "why", True)
     result.runs.append(BenchRun(bench=type("B", (), {"name": "rv", "analysis": "dc", "plot": None})(), traces={},

@@ -10,12 +10,13 @@ import numpy as np
 import pytest
 import sympy as sp
 
-from compactgen import render, verify
-from compactgen.benches import Bench
+from compactgen.targets import render
+from compactgen.harness import verify
+from compactgen.harness.benches import Bench
 from compactgen.errors import UnsupportedExpressionError
-from compactgen.printing import NgspicePrinter, VerilogAPrinter
-from compactgen.printing.ngspice import SAMPLE_STEPS, Sampled
-from compactgen.reference import ReferenceModel
+from compactgen.targets.printing import NgspicePrinter, VerilogAPrinter
+from compactgen.targets.printing.ngspice import SAMPLE_STEPS, Sampled
+from compactgen.harness.reference import ReferenceModel
 from compactgen.sim import compile_va_cached, run_ngspice, run_vacask
 
 from helpers import example_card

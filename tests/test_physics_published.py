@@ -15,7 +15,7 @@ from numpy.testing import assert_allclose
 from scipy import constants as C
 from scipy.integrate import solve_ivp
 
-from compactgen import constants as K
+from compactgen.model import constants as K
 from compactgen.physics import anisotropy, geometry, macrospin, switching, thermal, torques, tunnelling
 from compactgen.physics.constants import const_values
 
@@ -48,7 +48,7 @@ def test_constants_are_codata_2022():
 
 def test_unit_facts_of_the_trade():
     # common practice, no source: 1 Oe = 1000/(4 pi) A/m; mu0 H = 1 mT <-> 795.774716 A/m
-    from compactgen.units import to_si
+    from compactgen.model.units import to_si
 
     assert_allclose(to_si("1 Oe", "A/m"), 1000 / (4 * math.pi), rtol=1e-12)
     assert_allclose(to_si("1 mT", "A/m"), 1e-3 / MU0, rtol=1e-12)

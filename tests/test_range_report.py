@@ -7,12 +7,12 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from compactgen import render
-from compactgen.benches import Pwl
+from compactgen.targets import render
+from compactgen.harness.benches import Pwl
 from compactgen.cli import main
 from compactgen.errors import OutOfCalibratedRange
-from compactgen.range_report import read_library, scan
-from compactgen.reference import ReferenceModel
+from compactgen.jobs.range_report import read_library, scan
+from compactgen.harness.reference import ReferenceModel
 from compactgen.sim.tools import ngspice_command, run_tool
 
 from helpers import example_card

@@ -5,8 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from compactgen.benches import Pulse, crossing_time
-from compactgen.reference import ReferenceModel
+from compactgen.harness.benches import Pulse, crossing_time
+from compactgen.harness.reference import ReferenceModel
 
 from helpers import example_card
 

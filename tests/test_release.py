@@ -17,18 +17,17 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from compactgen.card import load_card
+from compactgen.model.card import load_card
 from compactgen.cli import main
 from compactgen.errors import InputError, ReleaseError
-from compactgen.release import bundle as bundle_mod
-from compactgen.release.bundle import (MANIFEST, VOLATILE, ReleaseRefused, check_bundle, interface_record,
-                                       load_bundle, manifest_text, seal)
-from compactgen.release.changes import markdown
-from compactgen.release.commands import compare_dirs, demo_edited_card, make_release, renamed_card
-from compactgen.release.compare import _error, band_for, compare_curve_tables, compare_interface, fitted_names
-from compactgen.release.curves import CurveTable, read_csv
-from compactgen.release.semver import parse_version
-from compactgen.verify import run_suite
+from compactgen.jobs.release import bundle as bundle_mod
+from compactgen.jobs.release.bundle import MANIFEST, VOLATILE, ReleaseRefused, check_bundle, interface_record, load_bundle, manifest_text, seal
+from compactgen.jobs.release.changes import markdown
+from compactgen.jobs.release.commands import compare_dirs, demo_edited_card, make_release, renamed_card
+from compactgen.jobs.release.compare import _error, band_for, compare_curve_tables, compare_interface, fitted_names
+from compactgen.jobs.release.curves import CurveTable, read_csv
+from compactgen.jobs.release.semver import parse_version
+from compactgen.harness.verify import run_suite
 
 EXAMPLE = Path(__file__).resolve().parent.parent / "examples" / "pmtj35_demo.toml"
 pytestmark = [pytest.mark.simulator, pytest.mark.xdist_group("release")]  # one worker builds the bundles once
@@ -153,7 +152,7 @@ def test_bands_come_from_one_table_with_reasons():
     assert band_for("final m_z", "1").atol == 0.02
     retention = band_for("retention", "s")  # log scale: a factor 2 either way is one band
     assert retention.log and _error(1e3, 2e3, retention) == pytest.approx(1.0) == _error(1e3, 500.0, retention)
-    assert all(b.band.reason for b in __import__("compactgen.release.compare", fromlist=["x"]).FIGURE_BANDS)
+    assert all(b.band.reason for b in __import__("compactgen.jobs.release.compare", fromlist=["x"]).FIGURE_BANDS)
 
 
 def test_curves_compare_on_the_common_range():

@@ -12,9 +12,9 @@ from pathlib import Path
 
 import pytest
 
-from compactgen import verify
+from compactgen.harness import verify
 from compactgen.cli import main
-from compactgen.release.bundle import MANIFEST, SEAL, check_bundle, manifest_text, seal
+from compactgen.jobs.release.bundle import MANIFEST, SEAL, check_bundle, manifest_text, seal
 
 EXAMPLE = Path(__file__).resolve().parent.parent / "examples" / "pmtj35_demo.toml"
 

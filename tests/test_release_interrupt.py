@@ -11,7 +11,7 @@ from pathlib import Path
 
 import pytest
 
-from compactgen.release.bundle import Staging
+from compactgen.jobs.release.bundle import Staging
 
 ROOT = Path(__file__).resolve().parent.parent
 EXAMPLE = ROOT / "examples" / "pmtj35_demo.toml"
@@ -56,7 +56,7 @@ def _dead_pid() -> int:
 
 
 def test_pool_workers_end_with_their_parent_even_when_it_is_killed():
-    code = ("import time\nfrom compactgen.sweep import run_tasks\nif __name__ == '__main__':\n"
+    code = ("import time\nfrom compactgen.sim.tasks import run_tasks\nif __name__ == '__main__':\n"
             "    run_tasks(time.sleep, [600, 600], workers=2)\n")
     proc = subprocess.Popen([sys.executable, "-c", code], cwd=ROOT, start_new_session=True,
                             stderr=subprocess.DEVNULL)

@@ -6,11 +6,12 @@ import re
 import pytest
 import sympy as sp
 
-from compactgen import render
-from compactgen.build import build_files
+from compactgen.model.lowering import hoisted
+from compactgen.targets import render
+from compactgen.jobs.build import build_files
 from compactgen.errors import UnsupportedExpressionError
-from compactgen.printing import NgspicePrinter, VerilogAPrinter
-from compactgen.printing.base import format_number
+from compactgen.targets.printing import NgspicePrinter, VerilogAPrinter
+from compactgen.targets.printing.base import format_number
 from compactgen.sim import admsxml_check, compile_va
 
 from helpers import example_card
@@ -100,11 +101,11 @@ def test_hoisting_keeps_the_equations(files):
     # hoisted and original IR give the same numbers (hoisting is exact algebra)
     import numpy as np
 
-    from compactgen.reference import ReferenceModel
+    from compactgen.harness.reference import ReferenceModel
 
     ir = example_card().ir()
     a = ReferenceModel(ir, {"state0": -1.0})
-    b = ReferenceModel(ir.hoisted(), {"state0": -1.0})
+    b = ReferenceModel(hoisted(ir), {"state0": -1.0})
     rng = np.random.default_rng(1)
     for _ in range(20):
         y = rng.normal(size=3)
@@ -153,7 +154,7 @@ def test_ngspice_runtime_numbers_are_of_ordinary_size(name):
     # must be of ordinary size at the card's values
     import re
 
-    from compactgen.reference import ReferenceModel
+    from compactgen.harness.reference import ReferenceModel
 
     ir = example_card(name).ir()
     lib = render.ngspice(ir)

@@ -16,12 +16,13 @@ import pytest
 import sympy as sp
 from scipy.optimize import minimize_scalar
 
-from compactgen.benches import Dc, Pulse, crossing_time
-from compactgen.card import load_card, parse_card, starter_card
+from compactgen.harness.benches import Dc, Pulse, crossing_time
+from compactgen.model.card import load_card, parse_card, starter_card
 from compactgen.devices.stt_mtj import bias_for_current
 from compactgen.physics import anisotropy, macrospin, thermal
-from compactgen.reference import ReferenceModel, figures
-from compactgen.verify import run_suite
+from compactgen.harness.reference import ReferenceModel
+from compactgen.model.evaluate import figures
+from compactgen.harness.verify import run_suite
 from tests.helpers import EXAMPLES
 
 EULER_GAMMA = 0.5772156649015329  # Euler's constant (handbook value)
@@ -118,7 +119,7 @@ def test_sub_threshold_cone_widens_as_the_effective_barrier_falls(stt) -> None:
 def test_write_at_2_ns_and_200_ns_in_every_simulator(stt, ngspice, vacask) -> None:
     """The same 2 x I_c0 pulse, both directions, 2 ns and 200 ns after the start: every engine gives
     the same switching time within 1 % (goal of the rest state), and agrees with the reference."""
-    from compactgen.benches import Bench, Metric, switching_time
+    from compactgen.harness.benches import Bench, Metric, switching_time
     from compactgen.devices.stt_mtj import WHY_TSW, step_cap
 
     card, ir = stt

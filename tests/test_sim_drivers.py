@@ -15,11 +15,7 @@ import pytest
 from scipy.integrate import solve_ivp
 
 from compactgen.errors import SimulationError, SimulatorMissing
-from compactgen.sim import (
-    NgspiceWorker, RawPlot, admsxml_check, available, compile_va, compile_va_cached,
-    ngspice_command, ngspice_library, read_raw, require_simulators, run_ngspice,
-    run_ngspice_batch, run_ngspice_many, run_vacask, split_sweeps,
-)
+from compactgen.sim import NgspiceWorker, RawPlot, admsxml_check, available, compile_va, compile_va_cached, ngspice_command, ngspice_library, read_raw, require_simulators, run_ngspice, run_ngspice_batch, run_ngspice_many, run_vacask, split_sweeps
 from compactgen.sim.ngspice import SPICEINIT, _spice_number
 
 V0, R0, K = 0.5, 1e3, 0.5

@@ -6,8 +6,8 @@ from pathlib import Path
 
 import pytest
 
-from compactgen import render
-from compactgen.card import load_card, parse_card, starter_card
+from compactgen.targets import render
+from compactgen.model.card import load_card, parse_card, starter_card
 from compactgen.cli import main
 from compactgen.errors import RangeError
 from compactgen.sim import admsxml_check, compile_va

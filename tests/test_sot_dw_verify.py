@@ -7,8 +7,8 @@ from pathlib import Path
 
 import pytest
 
-from compactgen.card import load_card
-from compactgen.verify import run_suite
+from compactgen.model.card import load_card
+from compactgen.harness.verify import run_suite
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 

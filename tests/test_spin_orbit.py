@@ -9,12 +9,13 @@ import pytest
 import sympy as sp
 from scipy import constants as C
 
-from compactgen.benches import Pwl, crossing_time
+from compactgen.harness.benches import Pwl, crossing_time
 from compactgen.devices import get_kind
 from compactgen.devices.write_line import line_drive
 from compactgen.physics import heavy_metal, spin_orbit, torques
 from compactgen.physics.constants import const_values
-from compactgen.reference import ReferenceModel, figures
+from compactgen.harness.reference import ReferenceModel
+from compactgen.model.evaluate import figures
 
 MU0 = C.mu_0
 HBAR = C.hbar

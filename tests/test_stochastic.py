@@ -14,14 +14,13 @@ import pytest
 import sympy as sp
 from scipy import integrate
 
-from compactgen.analytic import precessional_probability
-from compactgen.constants import K_B, MU0, GAMMA_E
-from compactgen.ensemble import current_step, simulator_ensembles
+from compactgen.statistics.analytic import precessional_probability
+from compactgen.model.constants import K_B, MU0, GAMMA_E
+from compactgen.statistics.ensemble import current_step, simulator_ensembles
 from compactgen.physics import macrospin, thermal
 from compactgen.physics.constants import const_values
-from compactgen.reference import figures
-from compactgen.stochastic import (StochasticModel, heun_ensemble, initial_vectors, sample_initial_angles,
-                                   wilson_interval)
+from compactgen.model.evaluate import figures
+from compactgen.statistics.stochastic import StochasticModel, heun_ensemble, initial_vectors, sample_initial_angles, wilson_interval
 
 from helpers import example_card
 

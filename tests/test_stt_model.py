@@ -9,10 +9,11 @@ import pytest
 from numpy.testing import assert_allclose
 from scipy import constants as C
 
-from compactgen import render
-from compactgen.benches import Bench, Dc, Metric, Pulse, switching_time
-from compactgen.reference import ReferenceModel, figures
-from compactgen.verify import run_suite
+from compactgen.targets import render
+from compactgen.harness.benches import Bench, Dc, Metric, Pulse, switching_time
+from compactgen.harness.reference import ReferenceModel
+from compactgen.model.evaluate import figures
+from compactgen.harness.verify import run_suite
 
 from helpers import card_with, example_card
 

@@ -4,10 +4,10 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from compactgen.ensemble import simulator_ensembles
-from compactgen.reference import figures
-from compactgen.stochastic import sample_initial_angles
-from compactgen.sweep import chunks, run_tasks
+from compactgen.statistics.ensemble import simulator_ensembles
+from compactgen.model.evaluate import figures
+from compactgen.statistics.stochastic import sample_initial_angles
+from compactgen.sim.tasks import chunks, run_tasks
 
 from helpers import example_card
 

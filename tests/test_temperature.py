@@ -12,12 +12,13 @@ import numpy as np
 import pytest
 import sympy as sp
 
-from compactgen.benches import Bench, Metric, dc_resistance_at
-from compactgen.constants import ZERO_CELSIUS
+from compactgen.harness.benches import Bench, Metric, dc_resistance_at
+from compactgen.model.constants import ZERO_CELSIUS
 from compactgen.physics import temperature as tl
 from compactgen.physics import tunnelling
-from compactgen.reference import ReferenceModel, figures
-from compactgen.verify import run_suite
+from compactgen.harness.reference import ReferenceModel
+from compactgen.model.evaluate import figures
+from compactgen.harness.verify import run_suite
 
 from helpers import card_with, example_card
 
@@ -122,7 +123,7 @@ def test_dtemp_reaches_both_simulators(ngspice, vacask):
 
 
 def test_datasheet_states_delta_retention_and_wer():
-    from compactgen.build import build_files
+    from compactgen.jobs.build import build_files
 
     md = build_files(example_card())["pmtj35_demo.md"]
     ir = example_card().ir()

@@ -4,9 +4,9 @@ from __future__ import annotations
 import dataclasses
 from dataclasses import dataclass
 
-from ..errors import CardError
-from ..ir import ModelIR
-from ..params import ParamSpec, ParamTable
+from compactgen.errors import CardError
+from compactgen.model.ir import ModelIR
+from compactgen.model.params import ParamSpec, ParamTable
 
 
 @dataclass(frozen=True)
@@ -59,14 +59,8 @@ def register(cls):
 
 
 def kinds() -> dict[str, DeviceKind]:
-    from . import stt_mtj  # noqa: F401  (registration side effect)
-
-    for extra in ("sot_mtj", "dw_mtj"):
-        try:
-            __import__(f"{__package__}.{extra}")
-        except ModuleNotFoundError as exc:
-            if exc.name != f"{__package__}.{extra}":
-                raise
+    """Every registered kind (the kinds register themselves when compactgen.devices is imported,
+    which happens before this module runs)."""
     return dict(_REGISTRY)
 
 

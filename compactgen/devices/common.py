@@ -8,10 +8,10 @@ import math
 
 import sympy as sp
 
-from ..physics import anisotropy, geometry, macrospin, temperature, thermal, tunnelling
-from ..physics.constants import const_values, gamma0
-from ..ir import Constraint
-from ..params import ParamSpec
+from compactgen.physics import anisotropy, geometry, macrospin, temperature, thermal, tunnelling
+from compactgen.physics.constants import const_values, gamma0
+from compactgen.model.ir import Constraint
+from compactgen.model.params import ParamSpec
 
 NM = 1e-9
 KA_M = 1e3
@@ -247,7 +247,7 @@ def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p, extra_torques=(), ax
     non-axial torque) the rest state is the static equilibrium in that field.  thermal_rest = 0:
     plain LLG in the laboratory frame from tilt0/phi0.
     Returns (state symbols, states)."""
-    from ..ir import State
+    from compactgen.model.ir import State
 
     P = parts.P
     m = [sp.Symbol(n, real=True) for n in ("mx", "my", "mz")]
@@ -314,7 +314,7 @@ def pillar_free_layer(kind, values: dict[str, float], varied):
     """The start every pillar-based kind shares: parameter table with the card values, a Parts
     accumulator, the disk area, process variation of ``varied``, then the free layer.
     Returns (table, P, parts, area, free-layer dict)."""
-    from .variation import apply_variation
+    from compactgen.model.variation import apply_variation
 
     table = kind.table_with(values)
     P = table.symbols()

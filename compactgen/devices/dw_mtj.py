@@ -19,19 +19,18 @@ import dataclasses
 
 import sympy as sp
 
-from ..ir import Branch, Constraint, Figure, ModelIR, Output, State
-from ..params import ParamSpec
-from ..physics import anisotropy, domain_wall, heavy_metal, temperature, torques, tunnelling
-from ..physics.constants import const_values, gamma0, mu0
-from .variation import apply_variation, variation_specs
-from .base import DeviceKind, register
-from .common import NM, Parts, device_temperature, free_layer_specs, limit_specs, mtj_conductance, mtj_read_specs
-from ..errors import RangeError
-from .sot_mtj import MT
+from compactgen.model.ir import Branch, Constraint, Figure, ModelIR, Output, State
+from compactgen.model.params import ParamSpec
+from compactgen.physics import anisotropy, domain_wall, heavy_metal, temperature, torques, tunnelling
+from compactgen.physics.constants import const_values, gamma0, mu0
+from compactgen.model.variation import apply_variation, variation_specs
+from compactgen.devices.base import DeviceKind, register
+from compactgen.devices.common import NM, Parts, device_temperature, free_layer_specs, limit_specs, mtj_conductance, mtj_read_specs
+from compactgen.errors import RangeError
+from compactgen.devices.sot_mtj import MT
 #: longest transient a bench may need, in step caps (the stt-mtj budget: one card's verify within a minute)
-from .stt_mtj import POINT_BUDGET
-from .write_line import (CONVENTIONS, WHY_DC, heavy_metal_specs, line_current_density, line_resistance_bench,
-                         three_terminal)
+from compactgen.devices.stt_mtj import POINT_BUDGET
+from compactgen.devices.write_line import CONVENTIONS, WHY_DC, heavy_metal_specs, line_current_density, line_resistance_bench, three_terminal
 
 #: edge barriers: centre this many wall widths inside each track end, decay length one wall width
 EDGE_INSET = 3
@@ -565,7 +564,7 @@ class _Card:
     """What the benches of one card share: its numbers, figures and cached reference models."""
 
     def __init__(self, ir, values):
-        from ..reference import DEFAULT_TEMPERATURE, figures
+        from compactgen.model.evaluate import DEFAULT_TEMPERATURE, figures
 
         self.ir, self.values = ir, values
         self.figs = figures(ir)  # the datasheet's figures, at tnom
@@ -582,7 +581,7 @@ class _Card:
         0 meaning mtj_start)."""
         import copy
 
-        from ..reference import ReferenceModel
+        from compactgen.harness.reference import ReferenceModel
 
         inst = dict(inst)
         wall0 = inst.pop("wall0", None)
@@ -614,8 +613,8 @@ class _Card:
 
     def drives(self, model, j: float, rise: float = PULSE_RISE) -> dict:
         """Line drive for current density ``j`` (no junction current), switched on over ``rise``."""
-        from ..benches import Dc, Pulse
-        from .write_line import line_drive
+        from compactgen.harness.benches import Dc, Pulse
+        from compactgen.devices.write_line import line_drive
 
         lv = line_drive(model, j * self.cross)
         return {n: (Pulse(0.0, v, 0.0, rise, rise, 1.0) if v else Dc(0.0)) for n, v in lv.items()}
@@ -641,7 +640,7 @@ def _decimals(step: float) -> int:
 
 
 def _na(name: str, title: str, reason: str, inst=None, temperature=None):
-    from ..benches import Bench
+    from compactgen.harness.benches import Bench
 
     return Bench(name, title, "tran", {}, [], instance=dict(inst or {}), temperature=temperature,
                  not_applicable=reason)
@@ -653,7 +652,7 @@ def _steady_bench(card: _Card, name: str, title: str, inst: dict, j: float, expe
     the instance's hz when j = 0), pinning off: settling, window, step cap and track from the card."""
     import numpy as np
 
-    from ..benches import Bench, Metric, mean_rate
+    from compactgen.harness.benches import Bench, Metric, mean_rate
 
     L = card.L
     if abs(j) > card.j_max:
@@ -723,10 +722,10 @@ def _steady_bench(card: _Card, name: str, title: str, inst: dict, j: float, expe
 def dw_benches(ir, values):
     import numpy as np
 
-    from ..benches import Bench, Metric, branch_resistance_at
-    from ..constants import ZERO_CELSIUS
-    from ..reference import DEFAULT_TEMPERATURE
-    from .stt_mtj import BENCH_TEMPERATURES_C
+    from compactgen.harness.benches import Bench, Metric, branch_resistance_at
+    from compactgen.model.constants import ZERO_CELSIUS
+    from compactgen.model.evaluate import DEFAULT_TEMPERATURE
+    from compactgen.devices.stt_mtj import BENCH_TEMPERATURES_C
 
     card = _Card(ir, values)
     figs, figs_b = card.figs, card.figs_b
@@ -871,7 +870,7 @@ def _precession_bench(card: _Card, name, title, inst, period, closed, source, wh
     """Above the Walker field: the mean speed over one full turn of the wall angle."""
     import numpy as np
 
-    from ..benches import Bench, Metric, mean_rate_per_turn
+    from compactgen.harness.benches import Bench, Metric, mean_rate_per_turn
 
     L = card.L
     model = card.model(inst)
@@ -1021,8 +1020,8 @@ def _pinned_benches(card: _Card) -> list:
 def _hold_bench(card: _Card, name_title, j_th, why, wells):
     import numpy as np
 
-    from ..benches import Bench, Dc, Metric, Pulse, extreme_excursion
-    from .write_line import line_drive
+    from compactgen.harness.benches import Bench, Dc, Metric, Pulse, extreme_excursion
+    from compactgen.devices.write_line import line_drive
 
     name, title = name_title
     values, L = card.values, card.L
@@ -1085,8 +1084,8 @@ def _pinned_motion(card: _Card, model, j: float, start: float, direction: int, s
     takes from 1.5 to (sites + 0.5) pitches past its start.  (speed, time to the first mark) or None."""
     import numpy as np
 
-    from ..benches import Pwl, crossing_time
-    from .write_line import line_drive
+    from compactgen.harness.benches import Pwl, crossing_time
+    from compactgen.devices.write_line import line_drive
 
     pitch = card.values["pin_pitch"]
     st = steady_state(model, j, float(model.initial[1]), card.wall(model))
@@ -1118,7 +1117,7 @@ def _landing_width(model, levels, start, pitch, hops, guess, edge, relax, cap, r
     train then checks the landing with the full rest).  (width, "") or (None, the reason)."""
     import numpy as np
 
-    from ..benches import Pwl
+    from compactgen.harness.benches import Pwl
 
     L = _num(model, "track_length")
     seen: dict[float, float] = {}
@@ -1166,7 +1165,7 @@ def _train_drives(levels: dict, n_pulses, width, relax, read, edge, gap, read_bi
     """Pwl drives: after ``lead`` (default ``gap``) a read of the junction (t at ``read_bias``, line ends
     at 0 V), then for each write pulse the line ends get +-I r, all ports rest for ``relax``, and t
     reads again.  Returns the drives, the pulse end times, the read times and the end time."""
-    from ..benches import Pwl
+    from compactgen.harness.benches import Pwl
 
     pts = {n: [(0.0, 0.0)] for n in ("w1", "w2", "t")}
     t = gap if lead is None else lead
@@ -1202,8 +1201,8 @@ def _train_drives(levels: dict, n_pulses, width, relax, read, edge, gap, read_bi
 def _train_bench(card: _Card, name_title, j_th, why, wells, room):
     import numpy as np
 
-    from ..benches import Bench, Metric, resistance_at_time
-    from .write_line import line_drive
+    from compactgen.harness.benches import Bench, Metric, resistance_at_time
+    from compactgen.devices.write_line import line_drive
 
     name, title = name_title
     values, L, figs = card.values, card.L, card.figs_b
@@ -1305,8 +1304,8 @@ def _train_bench(card: _Card, name_title, j_th, why, wells, room):
 def _long_bench(card: _Card, name_title, j_th, why, wells, room):
     import numpy as np
 
-    from ..benches import Bench, Dc, Metric, Pulse
-    from .write_line import line_drive
+    from compactgen.harness.benches import Bench, Dc, Metric, Pulse
+    from compactgen.devices.write_line import line_drive
 
     name, title = name_title
     values, L = card.values, card.L

@@ -16,18 +16,16 @@ import dataclasses
 import numpy as np
 import sympy as sp
 
-from ..constants import MU0
-from ..ir import Branch, Constraint, Figure, ModelIR, Output
-from ..params import ParamSpec
-from ..physics import heavy_metal, macrospin, spin_orbit, switching, torques
-from ..physics.constants import const_values
-from .variation import variation_specs
-from .base import DeviceKind, register
-from .common import (NM, free_layer_specs, limit_specs, macrospin_states, mtj_conductance, mtj_read_specs,
-                     orientation_specs, pillar_free_layer)
-from .stt_mtj import SttMtj
-from .write_line import (CONVENTIONS, WHY_DC, heavy_metal_specs, line_current_density, line_resistance_bench,
-                         three_terminal)
+from compactgen.model.constants import MU0
+from compactgen.model.ir import Branch, Constraint, Figure, ModelIR, Output
+from compactgen.model.params import ParamSpec
+from compactgen.physics import heavy_metal, macrospin, spin_orbit, switching, torques
+from compactgen.physics.constants import const_values
+from compactgen.model.variation import variation_specs
+from compactgen.devices.base import DeviceKind, register
+from compactgen.devices.common import NM, free_layer_specs, limit_specs, macrospin_states, mtj_conductance, mtj_read_specs, orientation_specs, pillar_free_layer
+from compactgen.devices.stt_mtj import SttMtj
+from compactgen.devices.write_line import CONVENTIONS, WHY_DC, heavy_metal_specs, line_current_density, line_resistance_bench, three_terminal
 
 MT = 1e-3 / MU0  # A/m per mT, for readable defaults
 
@@ -182,12 +180,12 @@ def sot_benches(ir, values):
     """Benches derived from the card: line and read sweeps inside the calibrated limits, write pulses
     whose trailing edge the free layer can follow (several relaxation times), a threshold ramp slow
     against the relaxation time; not applicable, with the reason, where the device cannot run one."""
-    from ..benches import (Bench, Dc, Metric, Pulse, Pwl, branch_resistance_at, current_at_crossing,
-                           settled_value, switching_time)
-    from ..reference import ReferenceModel, figures
-    from ..constants import ZERO_CELSIUS
-    from .stt_mtj import BENCH_TEMPERATURES_C, POINT_BUDGET, rest_mz, step_cap
-    from .write_line import line_drive
+    from compactgen.harness.benches import Bench, Dc, Metric, Pulse, Pwl, branch_resistance_at, current_at_crossing, settled_value, switching_time
+    from compactgen.harness.reference import ReferenceModel
+    from compactgen.model.evaluate import figures
+    from compactgen.model.constants import ZERO_CELSIUS
+    from compactgen.devices.stt_mtj import BENCH_TEMPERATURES_C, POINT_BUDGET, rest_mz, step_cap
+    from compactgen.devices.write_line import line_drive
 
     figs = figures(ir)
     jc = figs["j_c_sot"]
@@ -259,7 +257,7 @@ def sot_benches(ir, values):
                       temperature=temperature)
         # the end state rule is a macrospin tendency, not a law: where the reference itself rings back
         # into the old well, say so and compare the engines without asserting the rule
-        from ..verify import reference_trace
+        from compactgen.harness.verify import reference_trace
 
         bench.cached_reference = tr = reference_trace(ir, bench)
         if fall < 0.99 * FALL_TAUS * figs_t["tau_prec"]:
@@ -326,7 +324,7 @@ def sot_benches(ir, values):
                     (WHY_JSW if slow else WHY_JSW_FAST) + ("; " + WHY_JSW_EXPECT if exact else ""),
                     expect=(jc, 0.05 * jc) if exact else None)],
             instance=inst, t_stop=ramp, t_step=1e-11, max_step=tmax, plot=("state:mz", "current:w1"))
-        from ..verify import reference_trace
+        from compactgen.harness.verify import reference_trace
 
         bench.cached_reference = tr = reference_trace(ir, bench)
         if not np.isfinite(bench.metrics[0].func(tr)):

@@ -12,18 +12,17 @@ import math
 import numpy as np
 import sympy as sp
 
-from ..benches import (Bench, Dc, Metric, Pulse, crossing_time, dc_curve_deviation_factory, dc_resistance_at,
-                       extreme_value, settled_value, switching_time)
-from ..ir import Branch, Figure, ModelIR, Output, Terminal
-from ..physics import geometry, macrospin, switching, thermal, torques, tunnelling
-from ..constants import ZERO_CELSIUS
-from ..physics.constants import const_values
-from ..reference import ReferenceModel, figures
-from .base import DeviceKind, Option, register
-from .common import (cylinder_nz, free_layer_specs, limit_specs, macrospin_states, mtj_conductance,
-                     mtj_read_specs, orientation_specs, pillar_free_layer)
-from ..params import ParamSpec
-from .variation import variation_specs
+from compactgen.harness.benches import Bench, Dc, Metric, Pulse, crossing_time, dc_curve_deviation_factory, dc_resistance_at, extreme_value, settled_value, switching_time
+from compactgen.model.ir import Branch, Figure, ModelIR, Output, Terminal
+from compactgen.physics import geometry, macrospin, switching, thermal, torques, tunnelling
+from compactgen.model.constants import ZERO_CELSIUS
+from compactgen.physics.constants import const_values
+from compactgen.harness.reference import ReferenceModel
+from compactgen.model.evaluate import figures
+from compactgen.devices.base import DeviceKind, Option, register
+from compactgen.devices.common import cylinder_nz, free_layer_specs, limit_specs, macrospin_states, mtj_conductance, mtj_read_specs, orientation_specs, pillar_free_layer
+from compactgen.model.params import ParamSpec
+from compactgen.model.variation import variation_specs
 
 
 #: parameters with process variation: (name, direction of the slow corner, global sigma, mismatch
@@ -264,7 +263,7 @@ class WritePlan:
         self.period = 1.0 / figs["f_fmr"]
         self.final = rest_mz(ir, -self.start, temperature)
         self.temperature = temperature
-        from ..verify import reference_trace
+        from compactgen.harness.verify import reference_trace
 
         self.trace = tr = reference_trace(ir, self.bench("probe", ""))
         self.tsw = crossing_time(tr.t, tr.states["mz"], 0.0, delay, direction) - delay

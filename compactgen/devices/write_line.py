@@ -10,10 +10,10 @@ from __future__ import annotations
 
 import sympy as sp
 
-from ..ir import Branch, Node, Terminal
-from ..params import ParamSpec
-from ..physics import heavy_metal
-from .common import NM, Parts
+from compactgen.model.ir import Branch, Node, Terminal
+from compactgen.model.params import ParamSpec
+from compactgen.physics import heavy_metal
+from compactgen.devices.common import NM, Parts
 
 UOHM_CM = 1e-8
 
@@ -78,7 +78,7 @@ def line_resistance_bench(r_line: float, v_lim: float = 0.5):
     """DC bench: w1 swept -v_lim..v_lim (default 0.5 V; a kind may lower it to its calibrated
     range) with w2 and t at 0 V; the line resistance from the port currents and the junction node's
     voltage must be rho L/(w t)."""
-    from ..benches import Bench, Metric, line_resistance_at
+    from compactgen.harness.benches import Bench, Metric, line_resistance_at
 
     return Bench(
         "line_r", f"write-line resistance: w1 swept {-v_lim:.3g}..{v_lim:.3g} V, w2 = t = 0", "dc", {},

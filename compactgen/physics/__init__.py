@@ -5,4 +5,4 @@ symbols or numbers, and names its published source in the docstring.  Device kin
 ``compactgen.devices`` compose these blocks into a ModelIR; the reference solver, both
 printers and the datasheet are generated from that IR.
 """
-from .constants import CONST, const_values  # noqa: F401
+from compactgen.physics.constants import CONST, const_values  # noqa: F401

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import sympy as sp
 
-from .constants import mu0
+from compactgen.physics.constants import mu0
 
 
 def uniaxial_energy_density(k_bulk, k_interface, t_free):

@@ -1,9 +1,9 @@
-"""Physical constants as sympy symbols; numbers come from compactgen.constants (CODATA 2022)."""
+"""Physical constants as sympy symbols; numbers come from compactgen.model.constants (CODATA 2022)."""
 from __future__ import annotations
 
 import sympy as sp
 
-from .. import constants as _c
+from compactgen.model import constants as _c
 
 CONST = {name: sp.Symbol(name, positive=True) for name in _c.TABLE}
 hbar = CONST["c_hbar"]

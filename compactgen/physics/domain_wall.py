@@ -22,8 +22,8 @@ from __future__ import annotations
 
 import sympy as sp
 
-from .constants import gamma0, gamma_e, mu0
-from .spin_orbit import current_density_for_field, spin_hall_polarisation
+from compactgen.physics.constants import gamma0, gamma_e, mu0
+from compactgen.physics.spin_orbit import current_density_for_field, spin_hall_polarisation
 
 
 def wall_width(a_ex, k_eff):
@@ -121,7 +121,7 @@ def pinning_field(energy, q, ms, charge=1):
     The simplification takes longer than the rest of a cached build, so its result is remembered
     in compactgen's cache (compactgen/cache.py, folder ``sympy``) by the srepr of the arguments and
     read back with eval(srepr) == expression, SymPy's own round trip."""
-    from .. import cache
+    from compactgen import cache
 
     done = {}
 

@@ -22,7 +22,7 @@ def cylinder_demag_nz(diameter: float, thickness: float) -> float:
     (remembered per diameter and thickness in compactgen's cache, compactgen/cache.py: scipy's
     import and the quadrature take longer than a whole cached build).
     """
-    from .. import cache
+    from compactgen import cache
 
     if diameter <= 0 or thickness <= 0:
         raise ValueError("diameter and thickness must be positive")

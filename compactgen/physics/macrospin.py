@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import sympy as sp
 
-from .constants import gamma0
+from compactgen.physics.constants import gamma0
 
 
 def cross(a, b):

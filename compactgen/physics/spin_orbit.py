@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import sympy as sp
 
-from .torques import spin_torque_field
+from compactgen.physics.torques import spin_torque_field
 
 
 def spin_hall_polarisation(current=(1, 0, 0), normal=(0, 0, 1)):

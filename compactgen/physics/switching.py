@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import sympy as sp
 
-from .constants import gamma0, hbar, mu0, q_e
+from compactgen.physics.constants import gamma0, hbar, mu0, q_e
 
 
 def stt_critical_current(alpha, eta, ms, volume, h_k_eff):

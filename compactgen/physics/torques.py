@@ -1,7 +1,7 @@
 """Current-to-torque conversion: spin-transfer and spin-orbit torque amplitudes as fields."""
 from __future__ import annotations
 
-from .constants import hbar, mu0, q_e
+from compactgen.physics.constants import hbar, mu0, q_e
 
 
 def spin_torque_field(j, efficiency, ms, t_free):

@@ -36,10 +36,7 @@ import numpy as np
 
 from compactgen.errors import SimulationError
 from compactgen.sim.rawfile import read_raw
-from compactgen.sim.tools import (
-    TAIL_LINES, check_not_stopping, exit_text, exit_with_parent, format_tail, ngspice_command, ngspice_shared,
-    register_child, run_tool, unregister_child,
-)
+from compactgen.sim.tools import TAIL_LINES, check_not_stopping, exit_text, exit_with_parent, format_tail, ngspice_command, ngspice_shared, register_child, run_tool, unregister_child
 
 __all__ = ["NgspiceWorker", "run_ngspice", "run_ngspice_batch", "run_ngspice_many"]
 

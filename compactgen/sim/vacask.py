@@ -19,9 +19,7 @@ from pathlib import Path
 from compactgen.cache import CACHE_ENV, cache_dir as _cache_subdir  # noqa: F401 (CACHE_ENV: kept importable here)
 from compactgen.errors import SimulationError
 from compactgen.sim.rawfile import RawPlot, read_raw
-from compactgen.sim.tools import (
-    admsxml_command, available, exit_text, format_tail, openvaf_command, run_tool, vacask_command,
-)
+from compactgen.sim.tools import admsxml_command, available, exit_text, format_tail, openvaf_command, run_tool, vacask_command
 
 __all__ = ["admsxml_check", "compile_va", "compile_va_cached", "run_vacask"]
 

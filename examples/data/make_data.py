@@ -15,8 +15,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from compactgen.calibrate.synthetic import make_stt_data, make_wall_data
-from compactgen.card import load_card
+from compactgen.jobs.calibrate.synthetic import make_stt_data, make_wall_data
+from compactgen.model.card import load_card
 
 HERE = Path(__file__).resolve().parent
 

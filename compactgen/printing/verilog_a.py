@@ -1,9 +1,0 @@
-"""Verilog-A expression printer (openvaf-r / ADMS dialect)."""
-from __future__ import annotations
-
-from .base import StrictPrinter
-
-
-class VerilogAPrinter(StrictPrinter):
-    language = "Verilog-A"
-    target = "Verilog-A"

@@ -1,0 +1,2 @@
+"""The thermal and statistical part: closed-form thermal figures, stochastic ensembles, corners
+and Monte Carlo."""
