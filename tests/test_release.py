@@ -115,8 +115,17 @@ def test_version_precedence_follows_the_specification():
 
 
 def test_cli_refuses_a_bad_version_before_any_work(tmp_path, capsys):
-    assert main(["release", str(EXAMPLE), "--version", "1.0", "-o", str(tmp_path / "r")]) == 2
-    assert "not 3" in capsys.readouterr().err
+    assert main(["release", str(EXAMPLE), "1.0", "-o", str(tmp_path / "r")]) == 2
+    err = capsys.readouterr().err
+    assert "release VERSION '1.0'" in err and "not 3" in err
+    assert not (tmp_path / "r").exists()
+
+
+def test_release_version_is_the_argument_after_the_card(tmp_path, capsys):
+    # `--version` is the program's own option (it prints compactgen's version), not the release's
+    for argv in (["--version", "1.0.0"], ["1.0.0", "--version", "1.0.0"], []):
+        assert main(["release", str(EXAMPLE), *argv, "-o", str(tmp_path / "r")]) == 2
+        assert f"`compactgen release {EXAMPLE} 1.2.0 -o RELEASES`" in capsys.readouterr().err
     assert not (tmp_path / "r").exists()
 
 

@@ -1,6 +1,7 @@
 """`compactgen release`, `compactgen compare`, `compactgen check-release`, and the demo step."""
 from __future__ import annotations
 
+import argparse
 import re
 import sys
 import time
@@ -60,12 +61,12 @@ def make_release(card_path: str | Path, version: str, out_root: str | Path, agai
     target = out_root / label
     if target.exists():
         raise ReleaseError(f"{target}: release {ver} of {card.name} exists already; a release is never "
-                           "overwritten, give a new --version")
+                           "overwritten, give a new VERSION")
     prev = None
     if against is not None:
         prev = load_bundle(against)
         if not ver > prev.version:
-            raise InputError(f"--version {ver}: not newer than the release compared against ({prev.label}, "
+            raise InputError(f"release VERSION {ver}: not newer than the release compared against ({prev.label}, "
                              f"{against}); semantic-version order must increase")
     t0 = time.perf_counter()
     reused = suite is not None
@@ -139,10 +140,12 @@ def compare_dirs(old: str | Path, new: str | Path, accept: str | None = None, si
 
 # ---- command line ------------------------------------------------------------------------------
 def add_commands(sub) -> None:
-    p = sub.add_parser("release", help="verify a card and freeze it as an immutable, versioned bundle")
+    p = sub.add_parser("release", help="verify a card and freeze it as an immutable, versioned bundle",
+                       usage="compactgen release [-h] CARD VERSION -o OUTPUT [--against AGAINST] [--accept ACCEPT]")
     p.add_argument("card")
-    p.add_argument("--version", required=True, dest="release_version", metavar="X",
-                   help="semantic version of this release, e.g. 1.0.0")
+    p.add_argument("release_version", metavar="VERSION", nargs="?", help="semantic version of this release, "
+                   "e.g. 1.0.0 (`compactgen --version` is the program's own version)")
+    p.add_argument("--version", dest="version_option", nargs="?", const="", help=argparse.SUPPRESS)
     p.add_argument("-o", "--output", required=True, help="folder holding the releases; the bundle is "
                    "OUTPUT/<name>-<version>/")
     p.add_argument("--against", help="a previous release bundle to compare with")
@@ -170,6 +173,9 @@ def add_commands(sub) -> None:
 
 
 def cmd_release(args) -> int:
+    if args.version_option is not None or args.release_version is None:
+        raise InputError(f"the release version is the argument after the card: `compactgen release {args.card} "
+                         "1.2.0 -o RELEASES` (`--version` is compactgen's own version, not the release's)")
     out = make_release(args.card, args.release_version, args.output, against=args.against, accept=args.accept)
     print(f"released {out.path}\nbundle digest: {out.digest} (sha256 of {out.path / MANIFEST})\n"
           f"Record this digest outside the bundle (release notes, ticket, signed tag): `compactgen check-release "
