@@ -134,7 +134,7 @@ def cmd_init(args) -> int:
 
 
 def cmd_build(args) -> int:
-    from .build import build_files, write_files
+    from .build import BUILD_MANIFEST, build_files, write_files
     from .card import load_card
 
     card = load_card(args.card)
@@ -145,7 +145,7 @@ def cmd_build(args) -> int:
     if f"{card.name}.osdi" not in files:
         import json
 
-        why = json.loads(files["manifest.json"])["compiled"][f"{card.name}.osdi"]["why"]
+        why = json.loads(files[BUILD_MANIFEST])["compiled"][f"{card.name}.osdi"]["why"]
         say(f"note: no compiled model {card.name}.osdi ({why}); the B-source library {card.name}.lib "
             "and the .va are complete")
     return 0

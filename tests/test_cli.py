@@ -3,14 +3,17 @@ from __future__ import annotations
 
 import contextlib
 import io
+import json
 import subprocess
 import sys
 from pathlib import Path
 
 import pytest
 
+from compactgen.build import BUILD_FORMAT, BUILD_MANIFEST
 from compactgen.card import load_card, starter_card
 from compactgen.cli import main
+from compactgen.release.bundle import FORMAT as RELEASE_FORMAT
 
 from helpers import EXAMPLES
 
@@ -37,6 +40,10 @@ def test_init_then_build(tmp_path):
     names = sorted(p.name for p in out.iterdir())
     assert names == ["manifest.json", "mydev.card.toml", "mydev.lib", "mydev.md", "mydev.osdi", "mydev.osdi.lib",
                      "mydev.va"]
+    build_manifest = json.loads((out / BUILD_MANIFEST).read_text())
+    assert build_manifest["format"] == BUILD_FORMAT == "compactgen-build/1"  # not a release manifest
+    assert BUILD_FORMAT != RELEASE_FORMAT and set(build_manifest["files"]) == set(names) - {
+        BUILD_MANIFEST, "mydev.card.toml"}
     first = {p.name: p.read_bytes() for p in out.iterdir()}
     assert main(["build", str(card), "-o", str(out)]) == 0
     assert {p.name: p.read_bytes() for p in out.iterdir()} == first

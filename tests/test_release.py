@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import copy
 import dataclasses
+import hashlib
 import json
 import shutil
 import stat
@@ -21,8 +22,8 @@ from compactgen.card import load_card
 from compactgen.cli import main
 from compactgen.errors import InputError, ReleaseError
 from compactgen.release import bundle as bundle_mod
-from compactgen.release.bundle import (MANIFEST, VOLATILE, ReleaseRefused, check_bundle, interface_record,
-                                       load_bundle, manifest_text, seal)
+from compactgen.release.bundle import (FORMAT, MANIFEST, OLD_MANIFEST, VOLATILE, ReleaseRefused, check_bundle,
+                                       interface_record, load_bundle, manifest_text, seal)
 from compactgen.release.changes import markdown
 from compactgen.release.commands import compare_dirs, demo_edited_card, make_release, renamed_card
 from compactgen.release.compare import _error, band_for, compare_curve_tables, compare_interface, fitted_names
@@ -201,8 +202,10 @@ def test_bundle_holds_everything_and_checks_out(rel):
     assert path.name == "pmtj35_demo-1.0.0"
     names = {p.relative_to(path).as_posix() for p in path.rglob("*") if p.is_file()}
     assert {"pmtj35_demo.card.toml", "pmtj35_demo.va", "pmtj35_demo.lib", "pmtj35_demo.md", "verify.html",
-            MANIFEST} <= names
+            "release.json"} <= names
+    assert "manifest.json" not in names  # the build's manifest (another schema) is not bundled
     m = json.loads((path / MANIFEST).read_text())
+    assert m["format"] == FORMAT == "compactgen-release/1"
     assert set(m["benches"]) == {n[len("curves/"):-4] for n in names if n.startswith("curves/")}
     assert (path / "pmtj35_demo.card.toml").read_text() == EXAMPLE.read_text()  # the card, frozen as given
     assert check_bundle(path).ok
@@ -294,6 +297,24 @@ def test_accepted_release_records_the_reason(rel, v2):
     assert not (path.parent / "pmtj35_demo-1.1.0.refused.html").exists()
     assert main(["compare", str(rel["v1"].path), str(path)]) == 1  # not accepted on this command line
     assert main(["compare", str(rel["v1"].path), str(path), "--accept", reason]) == 0
+
+
+def test_an_older_bundle_with_manifest_json_is_still_read(rel, tmp_path, capsys):
+    # bundles made before the release manifest was renamed hold it as manifest.json
+    old = _writable_copy(rel["v1b"].path, tmp_path / "old" / "pmtj35_demo-1.0.0")
+    (old / MANIFEST).rename(old / OLD_MANIFEST)
+    result = check_bundle(old)
+    assert result.ok and result.manifest_name == OLD_MANIFEST and not result.unexpected
+    assert result.digest == hashlib.sha256((old / OLD_MANIFEST).read_bytes()).hexdigest()
+    assert f"(sha256 of {OLD_MANIFEST})" in result.text()
+    assert load_bundle(old).manifest["version"] == "1.0.0"
+    # a new release compared against it is written with the new name and keeps its digest
+    out = make_release(EXAMPLE, "1.0.1", tmp_path / "new", against=old, suite=rel["v1"].suite, progress=_quiet)
+    assert (out.path / MANIFEST).is_file() and not (out.path / OLD_MANIFEST).exists()
+    assert out.comparison.clean and out.manifest["comparison"]["against_digest"] == result.digest
+    assert main(["check-release", str(out.path), "--against", str(old)]) == 0
+    assert "unchanged since that release" in capsys.readouterr().out
+    assert main(["compare", str(old), str(out.path)]) == 0
 
 
 def test_interface_break_fails_the_comparison(rel, tmp_path):

@@ -25,7 +25,7 @@ class ReleaseOutcome:
     manifest: dict
     comparison: Comparison | None
     suite: object  # verify.SuiteResult
-    digest: str = ""  # sha256 of the bundle's manifest.json (bundle.bundle_digest)
+    digest: str = ""  # sha256 of the bundle's release.json (bundle.bundle_digest)
 
 
 def make_release(card_path: str | Path, version: str, out_root: str | Path, against: str | Path | None = None,
@@ -38,7 +38,7 @@ def make_release(card_path: str | Path, version: str, out_root: str | Path, agai
     the manifest and the report record.  ``suite`` is a SuiteResult already computed for this
     very card (the demo reuses its verification run); by default the suite runs here.
     """
-    from ..build import build_files, write_files
+    from ..build import BUILD_MANIFEST, build_files, write_files
     from ..card import load_card
     from ..reference import figures as eval_figures
     from ..report import verify_html
@@ -80,7 +80,7 @@ def make_release(card_path: str | Path, version: str, out_root: str | Path, agai
             stage.write(rel, files[rel])
 
         for rel, content in build_files(card).items():
-            if rel != MANIFEST:
+            if rel != BUILD_MANIFEST:  # the release manifest holds what it records, and more
                 add(rel, content)
         add(f"{card.name}.card.toml", card.text)
         if suite is None:
