@@ -238,8 +238,8 @@ def test_rebuild_is_byte_identical_and_compares_clean(rel, capsys):
     assert {k: v for k, v in ma.items() if k not in VOLATILE} == {k: v for k, v in mb.items() if k not in VOLATILE}
     c = compare_dirs(a, b)
     assert c.clean and not c.params and not c.interface
-    assert {r.status for r in c.figures + c.metrics} == {"same"}
-    assert {r.status for r in c.curves} == {"identical"}
+    assert {r.status for r in c.figures + c.metrics} == {"identical"} == {r.status for r in c.curves}
+    assert "same" not in markdown(c)  # one word for one verdict
     assert main(["compare", str(a), str(b)]) == 0
     assert "PASS" in capsys.readouterr().out
 
@@ -274,7 +274,7 @@ def test_changed_parameter_is_caught_with_the_right_figures(rel, v2):
     c = v2["out"].comparison
     outside = {r.name for r in c.outside if r.group == "key figure"}
     assert outside == {"r_p", "r_ap"}  # RA scales both resistances; TMR, I_c0, Delta unchanged
-    assert {r.name: r.status for r in c.figures}["tmr_read"] == "same"
+    assert {r.name: r.status for r in c.figures}["tmr_read"] == "identical"
     r_p = next(r for r in c.figures if r.name == "r_p")
     assert r_p.rel == pytest.approx(0.05, rel=1e-9)  # R_P = RA / area, RA +5 %
     assert {f"{r.group}: {r.name}" for r in c.outside} >= {"rv_parallel: R at +0.10 V", "rv_antiparallel: R at +0.10 V"}
@@ -415,7 +415,7 @@ def test_golden_comparison_report(rel, v2, file_regression):
     comparison.  Simulator results differ in their last digits from run to run (which source shows
     the largest change, 0.045 or 0.044 of a band); they are checked against their tolerance here:
     with the simulators included, every figure and curve set is inside or outside its band just as
-    the reference's is (a simulator's round-off can only turn "same" into "within band")."""
+    the reference's is (a simulator's round-off can only turn "identical" into "within band")."""
     full = v2["out"].comparison
     assert full.sources == ["reference", "ngspice", "ngspice-osdi", "vacask"]
     assert (v2["out"].path / "changes.md").read_text() == markdown(full)  # the bundle's report is the full one
