@@ -178,6 +178,17 @@ def test_curves_compare_on_the_common_range():
     assert row.status == "OUTSIDE BAND" and row.error == pytest.approx(1.5, rel=1e-9)  # 0.03 against 0.02
 
 
+def test_fixed_and_kept_parameters_are_not_taken_for_fitted_ones(tmp_path):
+    # `compactgen fit` lists the parameters it held at their card values as `fixed`; cards fitted
+    # by earlier versions say `kept`: both load, and neither list counts as re-fitted
+    for key in ("fixed", "kept"):
+        card_path = tmp_path / f"{key}.toml"
+        card_path.write_text(EXAMPLE.read_text() + f'\n[provenance]\nfree = ["ra"]\n{key} = ["alpha", "ms"]\n')
+        card = load_card(card_path)
+        assert card.provenance[key] == ["alpha", "ms"]
+        assert fitted_names({"provenance": card.provenance, "parameters": {}}) == {"ra"}
+
+
 def test_demo_card_edit(tmp_path):
     v2 = load_card(demo_edited_card(EXAMPLE, tmp_path / "v2.toml", ra_factor=1.1, tmr0=1.42))
     v1 = load_card(EXAMPLE)

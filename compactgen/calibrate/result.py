@@ -33,7 +33,7 @@ def provenance(cf: CardFit, date: str | None = None) -> dict:
         "fitted_from_sha256": card.sha256(),
         "method": METHOD,
         "free": list(cf.free),
-        "kept": [n for n in cf.fittable if n not in cf.free],
+        "fixed": cf.fixed,  # held at their card values (cards fitted by earlier versions say "kept")
         "model_evaluations": int(cf.nfev),
         "converged": bool(o.success),
         "notes": list(cf.fixed_notes),
