@@ -78,6 +78,13 @@ BASE = starter_card("stt-mtj", "bad")
     (lambda t: t.replace('diameter = "40.0 nm"', 'diameter = "2 um"'), "diameter = '2 um' is outside the allowed range (5, 1000] nm"),
     (lambda t: t.replace("tmr0 = 1.5", "tmr0 = nan"), "[parameters] tmr0: value nan [1] is not a finite number"),
     (lambda t: t.replace('t_free = "1.3 nm"', "t_free = 1.3"), "the number 1.3 has no unit"),
+    # a number without a unit: the hint is in the unit the parameter's allowed range is written in
+    (lambda t: t.replace('diameter = "40.0 nm"', "diameter = 35"),
+     '[parameters] diameter: the number 35 has no unit; write it with a unit, e.g. "35 nm" (allowed range (5, 1000] nm)'),
+    (lambda t: t.replace('diameter = "40.0 nm"', 'diameter = "35"'),
+     '[parameters] diameter: \'35\' has no unit; write it with a unit, e.g. "35 nm" (allowed range (5, 1000] nm)'),
+    (lambda t: t.replace('ms = "1.0 MA/m"', "ms = 1.1"), 'e.g. "1.1 MA/m" (allowed range'),
+    (lambda t: t + '\n[uncertainty]\ndiameter = 2\n', '[uncertainty] diameter: the number 2 has no unit; write it with a unit, e.g. "2 nm"'),
     (lambda t: t.replace('name = "bad"', 'name = "Bad-Name"'), "[device] name = 'Bad-Name' must be lower-case"),
     (lambda t: t.replace('demag = "cylinder"', 'demag = "sphere"'), "[model] demag = 'sphere'; expected one of"),
     (lambda t: t.replace('ki = "1.3 mJ/m^2"', 'ki = "0.2 mJ/m^2"'), "must be positive (perpendicular free layer"),
