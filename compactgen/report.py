@@ -23,7 +23,21 @@ def _figure():
     return plt
 
 
+def plain_ticks(fig) -> None:
+    """Tick labels that read as values: no additive offset ("+1.234e3" beside the axis, which
+    makes a flat resistance unreadable); a power of ten, where one is needed, written as x10^n."""
+    from matplotlib.ticker import ScalarFormatter
+
+    for ax in fig.axes:
+        for axis in (ax.xaxis, ax.yaxis):
+            fmt = axis.get_major_formatter()
+            if isinstance(fmt, ScalarFormatter):  # log axes keep their own formatter
+                fmt.set_useOffset(False)
+                fmt.set_useMathText(True)
+
+
 def png_base64(fig) -> str:
+    plain_ticks(fig)
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=90, bbox_inches="tight")
     _figure().close(fig)
@@ -41,7 +55,13 @@ def style_pair(ax, axd, ylabel: str, xlabel: str, diff_label: str) -> None:
 
 
 def bench_plot(run) -> str | None:
-    """One figure per bench: the quantity on top, simulator minus reference below."""
+    """One figure per bench (PNG, base64): the quantity on top, simulator minus reference below."""
+    fig = bench_figure(run)
+    return None if fig is None else png_base64(fig)
+
+
+def bench_figure(run):
+    """The matplotlib figure of ``bench_plot`` (None for a bench without plots)."""
     plt = _figure()
     b = run.bench
     if not b.plot:
@@ -59,7 +79,12 @@ def bench_plot(run) -> str | None:
                 axd.plot(x, y - yi, STYLES.get(name, "-"), color=COLORS.get(name), lw=1.0)
         style_pair(ax, axd, ylabel, xlabel, "sim - ref")
     fig.suptitle(f"{b.name}: {b.title}", fontsize=9)
-    return png_base64(fig)
+    return fig
+
+
+def resistance_label(term: str) -> str:
+    """What a "resistance" plot shows: the swept port's V/I, whatever else that path holds."""
+    return f"V({term})/I({term}) [ohm]"
 
 
 def _series(tr, what: str, bench):
@@ -70,7 +95,7 @@ def _series(tr, what: str, bench):
             i = tr.currents[term]
             with np.errstate(divide="ignore", invalid="ignore"):
                 r = np.where(np.abs(v) > 1e-9, v / i, np.nan)
-            return v, r, f"V({term}) [V]", "R [ohm]"
+            return v, r, f"V({term}) [V]", bench.labels.get("resistance") or resistance_label(term)
         return v, tr.currents[term] * 1e6, f"V({term}) [V]", f"I({term}) [uA]"
     t = tr.t * 1e9
     kind, name = what.split(":")

@@ -297,11 +297,13 @@ def _series(table, spec: str, source: str = "reference"):
     xs = table.x * (1e9 if table.grid == "time" else 1.0)
     xlabel = "t [ns]" if table.grid == "time" else f"{table.grid} [{table.grid_unit}]"
     if spec == "resistance":
+        from ..report import resistance_label
+
         term = table.grid.split("_", 1)[1]
         i = table.values(f"{source}:current_{term}")
         with np.errstate(divide="ignore", invalid="ignore"):
             r = np.where(np.abs(table.x) > 1e-9, table.x / i, np.nan)
-        return xs, r, xlabel, "R [ohm]"
+        return xs, r, xlabel, resistance_label(term)
     kind, name = spec.split(":")
     if kind == "state":
         return xs, table.values(f"{source}:{name}"), xlabel, name
