@@ -134,7 +134,7 @@ def cmd_init(args) -> int:
 
 
 def cmd_build(args) -> int:
-    from compactgen.jobs.build import build_files, write_files
+    from compactgen.jobs.build import BUILD_MANIFEST, build_files, write_files
     from compactgen.model.card import load_card
 
     card = load_card(args.card)
@@ -145,7 +145,7 @@ def cmd_build(args) -> int:
     if f"{card.name}.osdi" not in files:
         import json
 
-        why = json.loads(files["manifest.json"])["compiled"][f"{card.name}.osdi"]["why"]
+        why = json.loads(files[BUILD_MANIFEST])["compiled"][f"{card.name}.osdi"]["why"]
         say(f"note: no compiled model {card.name}.osdi ({why}); the B-source library {card.name}.lib "
             "and the .va are complete")
     return 0
@@ -210,6 +210,8 @@ def cmd_demo(args) -> int:
 
     out = Path(args.output)
     out.mkdir(parents=True, exist_ok=True)
+    # the start page is written last, so an index is never left describing a demo that did not finish
+    (out / DEMO_INDEX).unlink(missing_ok=True)
     ok = True
     thermal_done = False
     runs = {}
@@ -232,8 +234,101 @@ def cmd_demo(args) -> int:
             say(f"wrote {demo_thermal(card_path, out / card.name, progress=say)}")
         runs[card.name] = (card_path, result)
     ok &= _demo_release(out, runs)
-    say(f"demo finished in {out}: {'every bench passed' if ok else 'SOME BENCHES FAILED'}")
+    write_files({DEMO_INDEX: demo_index(out, ok)}, out)  # one file, moved into place whole
+    say(f"demo finished in {out}: {'every bench passed' if ok else 'SOME BENCHES FAILED'}; start page "
+        f"{out / DEMO_INDEX}")
     return 0 if ok else VerificationFailed.exit_status
+
+
+DEMO_INDEX = "index.html"
+#: what each kind of file in a model's folder (build, release bundle) is; NAME is the model name
+_MODEL_FILES = (
+    ("{name}.va", "Verilog-A module"),
+    ("{name}.osdi", "compiled model (openvaf-r) for ngspice with OSDI and for VACASK"),
+    ("{name}.osdi.lib", "ngspice library around the compiled model (same subcircuit, parameters and sections)"),
+    ("{name}.lib", "ngspice subcircuit library (behavioural sources; process sections tt/ss/ff/mc)"),
+    ("{name}.md", "datasheet (Markdown): ports, conventions, parameters, key figures, equations"),
+    ("{name}.card.toml", "the card the model was built from"),
+    ("manifest.json", "build manifest (compactgen-build/1): sha256 of every file, key figures"),
+    ("release.json", "release manifest (compactgen-release/1): sha256 of every file, sealed; its own sha256 "
+                     "is the bundle digest"),
+    ("verify.html", "verification report: every bench on the reference solver, ngspice and VACASK, with plots"),
+    ("thermal.html", "thermal study: switching probability, retention against temperature, process corners"),
+    ("changes.html", "comparison with the previous release, with plots"),
+    ("changes.md", "comparison with the previous release (Markdown)"),
+)
+
+
+def _describe_demo_file(rel: Path) -> str:
+    """One line saying what a file of the demo folder is (``rel``: its path inside the folder)."""
+    parts, name = rel.parts, rel.name
+    if len(parts) == 1 and name.endswith("_refit.toml"):
+        return "the re-fitted card under the device's model name (released as 1.1.0)"
+    if len(parts) == 1 and name.endswith("_v2.toml"):
+        return "an edited copy of the device's card (released as 1.1.0)"
+    if len(parts) == 1 and name.endswith("_fit.toml"):
+        return "the card fitted to the bundled synthetic data (copied from fit/), built and verified"
+    if len(parts) == 1 and name.endswith(".toml"):
+        return "example card (copied from examples/), built and verified"
+    if parts[0] == "fit":
+        if name.endswith("report.html"):
+            return "fit report: data against the fitted model, standard errors, correlations, recovered values"
+        if name.endswith(".toml"):
+            return "card written by `compactgen fit`: fitted values, [uncertainty], [provenance]"
+    if parts[0] == "releases":
+        if len(parts) == 2 and name.endswith(".refused.html"):
+            return "report of a release that was refused (changes outside tolerance without --accept)"
+        if len(parts) > 2 and parts[2] == "curves":
+            return "bench curves (CSV with units) of every source"
+        model = parts[1].rsplit("-", 1)[0] if len(parts) > 2 else ""
+    else:
+        model = parts[0] if len(parts) > 1 else ""
+    if parts[0] == "releases" and name == "manifest.json":  # a bundle made by an earlier version
+        return "release manifest of an older bundle: sha256 of every file, sealed"
+    for pattern, what in _MODEL_FILES:
+        if name == pattern.format(name=model):
+            return what
+    return "written by the demo"
+
+
+def demo_index(out: Path, ok: bool) -> str:
+    """The start page of a demo folder: every file in it linked, with one line each saying what it is
+    (a release bundle's curves/ folder as one line)."""
+    import html as _html
+
+    out = Path(out)
+    rows: dict[str, list[tuple[str, str]]] = {}
+    seen_curves = set()
+    for p in sorted(out.rglob("*")):
+        rel = p.relative_to(out)
+        if not p.is_file() or rel.as_posix() == DEMO_INDEX or any(x.startswith(".") for x in rel.parts):
+            continue
+        if len(rel.parts) > 3 and rel.parts[0] == "releases" and rel.parts[2] == "curves":
+            folder = Path(*rel.parts[:3])
+            if folder in seen_curves:
+                continue
+            seen_curves.add(folder)
+            n = sum(1 for _ in (out / folder).glob("*.csv"))
+            rel, what = folder, f"{n} bench curve files (CSV with units), one per bench, every source"
+        else:
+            what = _describe_demo_file(rel)
+        group = rel.parts[0] if len(rel.parts) > 1 else "cards"
+        if group == "releases" and len(rel.parts) > 2:
+            group = f"releases/{rel.parts[1]}"
+        href = rel.as_posix() + ("/" if (out / rel).is_dir() else "")
+        rows.setdefault(group, []).append((href, what))
+    sections = []
+    for group in sorted(rows, key=lambda g: (g != "cards", g.startswith("releases"), g)):
+        items = "".join(f"<li><a href='{_html.escape(h)}'>{_html.escape(h)}</a>: {_html.escape(w)}</li>"
+                        for h, w in rows[group])
+        sections.append(f"<h2>{_html.escape(group)}</h2><ul>{items}</ul>")
+    verdict = "every bench passed" if ok else "SOME BENCHES FAILED (see the verify.html pages)"
+    return (f"<!doctype html><html><head><meta charset='utf-8'><title>compactgen demo</title>"
+            f"<style>body{{font-family:sans-serif;max-width:1100px;margin:auto}}</style></head><body>"
+            f"<h1>compactgen demo</h1><p>compactgen {_html.escape(__version__)}. Verdict: <b>{verdict}</b>. "
+            "Every file the demo wrote, by folder: the example cards, one folder per model (build and "
+            "verification), fit/ (cards fitted to the bundled synthetic data), releases/ (bundles and "
+            f"comparisons).</p>{''.join(sections)}</body></html>\n")
 
 
 def _fitted_demo(out: Path) -> list[Path]:

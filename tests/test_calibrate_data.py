@@ -103,7 +103,9 @@ BAD = [
      ["line 3", "metadata 'polarity'", "not one of"]),
     ("temperature without unit", "# diameter: 35 nm\n# temperature: 300\n# polarity: top-to-bottom\n"
      "pulse_width [ns],current [uA],direction,attempts,switched\n1,5,AP->P,10,2\n",
-     ["line 2", "metadata 'temperature'", "no unit"]),
+     ["line 2", "metadata 'temperature'", "no unit", 'e.g. "300 K"']),
+    ("diameter without unit", "# diameter: 35\nvoltage [V],resistance [ohm],state\n0.1,5,P\n",
+     ["line 1", "metadata 'diameter'", "'35' has no unit", 'e.g. "35 nm"']),  # the example's unit, not "35 m"
     ("missing sweep rate", "# diameter: 35 nm\n# temperature: 300 K\n# read_bias: 50 mV\n"
      "field [mT],resistance [ohm]\n1,2\n", ["metadata 'sweep_rate'", "missing"]),
     ("missing read bias", "# diameter: 35 nm\n# temperature: 300 K\n# sweep_rate: 1 T/s\n"

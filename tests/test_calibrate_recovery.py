@@ -140,7 +140,7 @@ def test_dw_card_recovers_the_track_truth(dw_fit_result, tmp_path):
     # what wall velocities cannot separate is the truth's in the demo card, and stays as given
     for n in ("ms", "t_free", "ki", "kb", "a_ex", "xi_sot", "h_dep"):
         assert cf.values[n] == cf.card.values[n] == truth.values[n], n
-    assert any(n.startswith("ms, ki, kb, a_ex, t_free kept") for n in cf.fixed_notes)
+    assert any(n.startswith("ms, ki, kb, a_ex, t_free fixed") for n in cf.fixed_notes)
     gamma_e = abs(C.physical_constants["electron gyromag. ratio"][0])
     _, v_d, se, unit, _ = cf.figures["v_dmi"]
     assert unit == "m/s"
@@ -159,11 +159,11 @@ def test_dw_card_recovers_the_track_truth(dw_fit_result, tmp_path):
 
 
 def test_dw_default_free_and_bad_choices():
-    """Current sweeps alone fix theta_sh/alpha only (alpha kept); field sweeps free alpha.  Parameters the wall
+    """Current sweeps alone fix theta_sh/alpha only (alpha fixed); field sweeps free alpha.  Parameters the wall
     velocities do not inform are refused before any model is built."""
     current, field = (read_dataset(f) for f in dw_demo_data_files())
     free, notes = dw_fit.default_free([current])
-    assert free == ["dmi", "theta_sh"] and any(n.startswith("alpha kept") for n in notes)
+    assert free == ["dmi", "theta_sh"] and any(n.startswith("alpha fixed:") for n in notes)
     assert dw_fit.default_free([current, field])[0] == ["dmi", "theta_sh", "alpha"]
     card = load_card(DW_DEMO)
     with pytest.raises(InputError, match="track_length cannot be fitted to wall velocities"):
@@ -174,7 +174,7 @@ def test_dw_default_free_and_bad_choices():
 
 def test_dw_fit_command(dw_fit_result, tmp_path):
     """`compactgen fit examples/dwtrack_demo.toml <wall files> -o fitted.toml`: a valid dw-mtj card with the
-    fitted values, their standard errors, provenance listing the dw-mtj parameters kept, and a report with the
+    fitted values, their standard errors, provenance listing the dw-mtj parameters fixed, and a report with the
     recovered-versus-true table; the fitted card builds."""
     out = tmp_path / "fitted.toml"
     report = tmp_path / "report.html"
@@ -189,11 +189,13 @@ def test_dw_fit_command(dw_fit_result, tmp_path):
         assert se == pytest.approx(dw_fit_result.stderr[n], rel=1e-3)
         assert card.values[n] == pytest.approx(dw_fit_result.values[n], rel=1e-6)
     prov = tomllib.loads(out.read_text())["provenance"]
-    assert prov["free"] == ["dmi", "theta_sh", "alpha"] and prov["kept"] == ["a_ex", "ki", "ms", "xi_sot"]
+    assert prov["free"] == ["dmi", "theta_sh", "alpha"] and prov["fixed"] == ["a_ex", "ki", "ms", "xi_sot"]
+    assert "kept" not in prov
     assert {d["sha256"] for d in prov["data"]} == {hashlib.sha256(p.read_bytes()).hexdigest() for p in files}
     assert {d["measurement"] for d in prov["data"]} == {"wall-velocity"} and "nuisance" not in prov
     html = report.read_text()
     assert "within 2 s.e." in html and html.count("data:image/png;base64") >= 3
+    assert "Fixed parameters (held at their card values)</h2><p><code>a_ex</code>, <code>ki</code>" in html
     assert "module dwtrack_demo_fit" in build_files(card)["dwtrack_demo_fit.va"]
 
 

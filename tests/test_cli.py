@@ -3,14 +3,17 @@ from __future__ import annotations
 
 import contextlib
 import io
+import json
 import subprocess
 import sys
 from pathlib import Path
 
 import pytest
 
+from compactgen.jobs.build import BUILD_FORMAT, BUILD_MANIFEST
 from compactgen.model.card import load_card, starter_card
 from compactgen.cli import main
+from compactgen.jobs.release.bundle import FORMAT as RELEASE_FORMAT
 
 from helpers import EXAMPLES
 
@@ -37,6 +40,10 @@ def test_init_then_build(tmp_path):
     names = sorted(p.name for p in out.iterdir())
     assert names == ["manifest.json", "mydev.card.toml", "mydev.lib", "mydev.md", "mydev.osdi", "mydev.osdi.lib",
                      "mydev.va"]
+    build_manifest = json.loads((out / BUILD_MANIFEST).read_text())
+    assert build_manifest["format"] == BUILD_FORMAT == "compactgen-build/1"  # not a release manifest
+    assert BUILD_FORMAT != RELEASE_FORMAT and set(build_manifest["files"]) == set(names) - {
+        BUILD_MANIFEST, "mydev.card.toml"}
     first = {p.name: p.read_bytes() for p in out.iterdir()}
     assert main(["build", str(card), "-o", str(out)]) == 0
     assert {p.name: p.read_bytes() for p in out.iterdir()} == first
@@ -71,6 +78,13 @@ BASE = starter_card("stt-mtj", "bad")
     (lambda t: t.replace('diameter = "40.0 nm"', 'diameter = "2 um"'), "diameter = '2 um' is outside the allowed range (5, 1000] nm"),
     (lambda t: t.replace("tmr0 = 1.5", "tmr0 = nan"), "[parameters] tmr0: value nan [1] is not a finite number"),
     (lambda t: t.replace('t_free = "1.3 nm"', "t_free = 1.3"), "the number 1.3 has no unit"),
+    # a number without a unit: the hint is in the unit the parameter's allowed range is written in
+    (lambda t: t.replace('diameter = "40.0 nm"', "diameter = 35"),
+     '[parameters] diameter: the number 35 has no unit; write it with a unit, e.g. "35 nm" (allowed range (5, 1000] nm)'),
+    (lambda t: t.replace('diameter = "40.0 nm"', 'diameter = "35"'),
+     '[parameters] diameter: \'35\' has no unit; write it with a unit, e.g. "35 nm" (allowed range (5, 1000] nm)'),
+    (lambda t: t.replace('ms = "1.0 MA/m"', "ms = 1.1"), 'e.g. "1.1 MA/m" (allowed range'),
+    (lambda t: t + '\n[uncertainty]\ndiameter = 2\n', '[uncertainty] diameter: the number 2 has no unit; write it with a unit, e.g. "2 nm"'),
     (lambda t: t.replace('name = "bad"', 'name = "Bad-Name"'), "[device] name = 'Bad-Name' must be lower-case"),
     (lambda t: t.replace('demag = "cylinder"', 'demag = "sphere"'), "[model] demag = 'sphere'; expected one of"),
     (lambda t: t.replace('ki = "1.3 mJ/m^2"', 'ki = "0.2 mJ/m^2"'), "must be positive (perpendicular free layer"),

@@ -75,7 +75,7 @@ def test_release_comparison_judges_overflowing_retention_on_its_log_scale():
     ln2 = math.log(2)
     old = _manifest(retention=bignum.Overflow(1000.0), dwell_brown=1e300)
     same = compare_figures(old, _json_round_trip(old))
-    assert [r.status for r in same] == ["same", "same"]
+    assert [r.status for r in same] == ["identical", "identical"]
     near = _manifest(retention=bignum.Overflow(1000.0 + 0.2), dwell_brown=bignum.Overflow(300.0 + 0.1))
     rows = {r.name: r for r in compare_figures(old, _json_round_trip(near))}
     # the retention band is "a factor 2" on a log scale: 0.2 decades is a factor 1.58

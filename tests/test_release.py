@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import copy
 import dataclasses
+import hashlib
 import json
 import shutil
 import stat
@@ -21,7 +22,7 @@ from compactgen.model.card import load_card
 from compactgen.cli import main
 from compactgen.errors import InputError, ReleaseError
 from compactgen.jobs.release import bundle as bundle_mod
-from compactgen.jobs.release.bundle import MANIFEST, VOLATILE, ReleaseRefused, check_bundle, interface_record, load_bundle, manifest_text, seal
+from compactgen.jobs.release.bundle import FORMAT, MANIFEST, OLD_MANIFEST, VOLATILE, ReleaseRefused, check_bundle, interface_record, load_bundle, manifest_text, seal
 from compactgen.jobs.release.changes import markdown
 from compactgen.jobs.release.commands import compare_dirs, demo_edited_card, make_release, renamed_card
 from compactgen.jobs.release.compare import _error, band_for, compare_curve_tables, compare_interface, fitted_names
@@ -114,8 +115,17 @@ def test_version_precedence_follows_the_specification():
 
 
 def test_cli_refuses_a_bad_version_before_any_work(tmp_path, capsys):
-    assert main(["release", str(EXAMPLE), "--version", "1.0", "-o", str(tmp_path / "r")]) == 2
-    assert "not 3" in capsys.readouterr().err
+    assert main(["release", str(EXAMPLE), "1.0", "-o", str(tmp_path / "r")]) == 2
+    err = capsys.readouterr().err
+    assert "release VERSION '1.0'" in err and "not 3" in err
+    assert not (tmp_path / "r").exists()
+
+
+def test_release_version_is_the_argument_after_the_card(tmp_path, capsys):
+    # `--version` is the program's own option (it prints compactgen's version), not the release's
+    for argv in (["--version", "1.0.0"], ["1.0.0", "--version", "1.0.0"], []):
+        assert main(["release", str(EXAMPLE), *argv, "-o", str(tmp_path / "r")]) == 2
+        assert f"`compactgen release {EXAMPLE} 1.2.0 -o RELEASES`" in capsys.readouterr().err
     assert not (tmp_path / "r").exists()
 
 
@@ -167,6 +177,17 @@ def test_curves_compare_on_the_common_range():
     assert row.status == "OUTSIDE BAND" and row.error == pytest.approx(1.5, rel=1e-9)  # 0.03 against 0.02
 
 
+def test_fixed_and_kept_parameters_are_not_taken_for_fitted_ones(tmp_path):
+    # `compactgen fit` lists the parameters it held at their card values as `fixed`; cards fitted
+    # by earlier versions say `kept`: both load, and neither list counts as re-fitted
+    for key in ("fixed", "kept"):
+        card_path = tmp_path / f"{key}.toml"
+        card_path.write_text(EXAMPLE.read_text() + f'\n[provenance]\nfree = ["ra"]\n{key} = ["alpha", "ms"]\n')
+        card = load_card(card_path)
+        assert card.provenance[key] == ["alpha", "ms"]
+        assert fitted_names({"provenance": card.provenance, "parameters": {}}) == {"ra"}
+
+
 def test_demo_card_edit(tmp_path):
     v2 = load_card(demo_edited_card(EXAMPLE, tmp_path / "v2.toml", ra_factor=1.1, tmr0=1.42))
     v1 = load_card(EXAMPLE)
@@ -191,8 +212,10 @@ def test_bundle_holds_everything_and_checks_out(rel):
     assert path.name == "pmtj35_demo-1.0.0"
     names = {p.relative_to(path).as_posix() for p in path.rglob("*") if p.is_file()}
     assert {"pmtj35_demo.card.toml", "pmtj35_demo.va", "pmtj35_demo.lib", "pmtj35_demo.md", "verify.html",
-            MANIFEST} <= names
+            "release.json"} <= names
+    assert "manifest.json" not in names  # the build's manifest (another schema) is not bundled
     m = json.loads((path / MANIFEST).read_text())
+    assert m["format"] == FORMAT == "compactgen-release/1"
     assert set(m["benches"]) == {n[len("curves/"):-4] for n in names if n.startswith("curves/")}
     assert (path / "pmtj35_demo.card.toml").read_text() == EXAMPLE.read_text()  # the card, frozen as given
     assert check_bundle(path).ok
@@ -225,8 +248,8 @@ def test_rebuild_is_byte_identical_and_compares_clean(rel, capsys):
     assert {k: v for k, v in ma.items() if k not in VOLATILE} == {k: v for k, v in mb.items() if k not in VOLATILE}
     c = compare_dirs(a, b)
     assert c.clean and not c.params and not c.interface
-    assert {r.status for r in c.figures + c.metrics} == {"same"}
-    assert {r.status for r in c.curves} == {"identical"}
+    assert {r.status for r in c.figures + c.metrics} == {"identical"} == {r.status for r in c.curves}
+    assert "same" not in markdown(c)  # one word for one verdict
     assert main(["compare", str(a), str(b)]) == 0
     assert "PASS" in capsys.readouterr().out
 
@@ -261,7 +284,7 @@ def test_changed_parameter_is_caught_with_the_right_figures(rel, v2):
     c = v2["out"].comparison
     outside = {r.name for r in c.outside if r.group == "key figure"}
     assert outside == {"r_p", "r_ap"}  # RA scales both resistances; TMR, I_c0, Delta unchanged
-    assert {r.name: r.status for r in c.figures}["tmr_read"] == "same"
+    assert {r.name: r.status for r in c.figures}["tmr_read"] == "identical"
     r_p = next(r for r in c.figures if r.name == "r_p")
     assert r_p.rel == pytest.approx(0.05, rel=1e-9)  # R_P = RA / area, RA +5 %
     assert {f"{r.group}: {r.name}" for r in c.outside} >= {"rv_parallel: R at +0.10 V", "rv_antiparallel: R at +0.10 V"}
@@ -284,6 +307,24 @@ def test_accepted_release_records_the_reason(rel, v2):
     assert not (path.parent / "pmtj35_demo-1.1.0.refused.html").exists()
     assert main(["compare", str(rel["v1"].path), str(path)]) == 1  # not accepted on this command line
     assert main(["compare", str(rel["v1"].path), str(path), "--accept", reason]) == 0
+
+
+def test_an_older_bundle_with_manifest_json_is_still_read(rel, tmp_path, capsys):
+    # bundles made before the release manifest was renamed hold it as manifest.json
+    old = _writable_copy(rel["v1b"].path, tmp_path / "old" / "pmtj35_demo-1.0.0")
+    (old / MANIFEST).rename(old / OLD_MANIFEST)
+    result = check_bundle(old)
+    assert result.ok and result.manifest_name == OLD_MANIFEST and not result.unexpected
+    assert result.digest == hashlib.sha256((old / OLD_MANIFEST).read_bytes()).hexdigest()
+    assert f"(sha256 of {OLD_MANIFEST})" in result.text()
+    assert load_bundle(old).manifest["version"] == "1.0.0"
+    # a new release compared against it is written with the new name and keeps its digest
+    out = make_release(EXAMPLE, "1.0.1", tmp_path / "new", against=old, suite=rel["v1"].suite, progress=_quiet)
+    assert (out.path / MANIFEST).is_file() and not (out.path / OLD_MANIFEST).exists()
+    assert out.comparison.clean and out.manifest["comparison"]["against_digest"] == result.digest
+    assert main(["check-release", str(out.path), "--against", str(old)]) == 0
+    assert "unchanged since that release" in capsys.readouterr().out
+    assert main(["compare", str(old), str(out.path)]) == 0
 
 
 def test_interface_break_fails_the_comparison(rel, tmp_path):
@@ -384,7 +425,7 @@ def test_golden_comparison_report(rel, v2, file_regression):
     comparison.  Simulator results differ in their last digits from run to run (which source shows
     the largest change, 0.045 or 0.044 of a band); they are checked against their tolerance here:
     with the simulators included, every figure and curve set is inside or outside its band just as
-    the reference's is (a simulator's round-off can only turn "same" into "within band")."""
+    the reference's is (a simulator's round-off can only turn "identical" into "within band")."""
     full = v2["out"].comparison
     assert full.sources == ["reference", "ngspice", "ngspice-osdi", "vacask"]
     assert (v2["out"].path / "changes.md").read_text() == markdown(full)  # the bundle's report is the full one

@@ -32,7 +32,7 @@ def bundles(tmp_path_factory):
     printed = {}
     try:
         for version, extra in (("1.0.0", []), ("1.1.0", ["--against", str(root / "rel" / "pmtj35_demo-1.0.0")])):
-            out = _run_main(["release", str(EXAMPLE), "--version", version, "-o", str(root / "rel"), *extra])
+            out = _run_main(["release", str(EXAMPLE), version, "-o", str(root / "rel"), *extra])
             printed[version] = out
     finally:
         mp.undo()

@@ -115,7 +115,7 @@ def test_release_stopped_mid_way_leaves_no_staging_and_no_process(tmp_path, sig)
     out = tmp_path / "releases"
     log = tmp_path / "stderr.txt"
     with open(log, "w") as err:
-        proc = subprocess.Popen([sys.executable, "-m", "compactgen", "release", str(EXAMPLE), "--version", "1.0.0",
+        proc = subprocess.Popen([sys.executable, "-m", "compactgen", "release", str(EXAMPLE), "1.0.0",
                                  "-o", str(out)], cwd=ROOT, stdout=subprocess.DEVNULL, stderr=err,
                                 start_new_session=True)
     try:

@@ -30,7 +30,7 @@ from compactgen.errors import RangeError
 from compactgen.devices.sot_mtj import MT
 #: longest transient a bench may need, in step caps (the stt-mtj budget: one card's verify within a minute)
 from compactgen.devices.stt_mtj import POINT_BUDGET
-from compactgen.devices.write_line import CONVENTIONS, WHY_DC, heavy_metal_specs, line_current_density, line_resistance_bench, three_terminal
+from compactgen.devices.write_line import CONVENTIONS, READ_PORT_LABEL, WHY_DC, heavy_metal_specs, line_current_density, line_resistance_bench, three_terminal
 
 #: edge barriers: centre this many wall widths inside each track end, decay length one wall width
 EDGE_INSET = 3
@@ -753,7 +753,7 @@ def dw_benches(ir, values):
         benches.append(Bench(f"read_q{int(frac * 100)}", f"junction read with the wall {frac:g} of the way along the "
                              f"junction (q = {q0 * 1e9:.1f} nm): t swept {-v_read:.3g}..{v_read:.3g} V", "dc", {},
                              metrics, instance={"wall0": q0}, sweep=("t", -v_read, v_read, v_read / 4),
-                             plot=("resistance",), temperature=t_read))
+                             plot=("resistance",), labels={"resistance": READ_PORT_LABEL}, temperature=t_read))
     # ---- SOT-driven steady velocity (pinning off), linear to saturating regime
     for k in (0.1, 0.3, 1.0, 3.0):
         name = f"velocity_{k:g}jhalf"

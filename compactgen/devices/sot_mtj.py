@@ -25,7 +25,7 @@ from compactgen.model.variation import variation_specs
 from compactgen.devices.base import DeviceKind, register
 from compactgen.devices.common import NM, free_layer_specs, limit_specs, macrospin_states, mtj_conductance, mtj_read_specs, orientation_specs, pillar_free_layer
 from compactgen.devices.stt_mtj import SttMtj
-from compactgen.devices.write_line import CONVENTIONS, WHY_DC, heavy_metal_specs, line_current_density, line_resistance_bench, three_terminal
+from compactgen.devices.write_line import CONVENTIONS, READ_PORT_LABEL, WHY_DC, heavy_metal_specs, line_current_density, line_resistance_bench, three_terminal
 
 MT = 1e-3 / MU0  # A/m per mT, for readable defaults
 
@@ -219,7 +219,7 @@ def sot_benches(ir, values):
         benches.append(Bench(f"read_{label}", f"junction read: t swept {-v_read:+.3g}..{v_read:+.3g} V, w1 = w2 = 0, "
                              f"{label} state (no initial tilt)", "dc", {}, metrics,
                              instance={"state0": state0, "thermal_rest": 0.0, "tilt0": 0.0},
-                             sweep=sweep, plot=("resistance",)))
+                             sweep=sweep, plot=("resistance",), labels={"resistance": READ_PORT_LABEL}))
 
     def write(name, title, k, jsign, inst, temperature=None, plot=("state:mz", "current:w1")):
         kw = {} if temperature is None else {"temperature": temperature}

@@ -69,6 +69,12 @@ def line_current_density(parts: Parts, name: str, current, width):
     return parts.loc(name, heavy_metal.current_density(current, width, parts.P["t_hm"]))
 
 
+#: the "resistance" plot of a junction read with w1 = w2 = 0: the read port's V(t)/I(t) holds the
+#: junction and, from mid to ground, the two line parts w1-mid and mid-w2 in parallel
+READ_PORT_LABEL = "read-port R = V(t)/I(t) [ohm]\n(junction + line parts w1-mid || mid-w2)"
+#: the "resistance" plot of the line bench (w2 = t = 0): w1-mid, then mid-w2 || the junction
+LINE_PORT_LABEL = "V(w1)/I(w1) [ohm]\n(w1-mid + (mid-w2 || junction))"
+
 WHY_DC = ("DC operating point with an internal node: only the Newton tolerance (reltol 1e-6) and 17-digit "
           "parameter printing separate the simulators from the reference; 0.1 % bounds both with margin")
 WHY_RLINE = WHY_DC + "; every run must give rho L/(w t) (PHYSICS 10) to 1e-6"
@@ -84,7 +90,7 @@ def line_resistance_bench(r_line: float, v_lim: float = 0.5):
         "line_r", f"write-line resistance: w1 swept {-v_lim:.3g}..{v_lim:.3g} V, w2 = t = 0", "dc", {},
         [Metric(f"R(w1-w2) at {v:+.{_digits(v_lim)}f} V", "ohm", line_resistance_at("w1", "w2", "mid", v), 1e-3, 0.0,
                 WHY_RLINE, expect=(r_line, 1e-6 * r_line)) for v in (-v_lim, 0.2 * v_lim, v_lim)],
-        sweep=("w1", -v_lim, v_lim, v_lim / 10), plot=("resistance",))
+        sweep=("w1", -v_lim, v_lim, v_lim / 10), plot=("resistance",), labels={"resistance": LINE_PORT_LABEL})
 
 
 def _digits(v: float) -> int:

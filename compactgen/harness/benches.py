@@ -117,6 +117,9 @@ class Bench:
     t_step: float = 0.0
     max_step: float = 0.0
     plot: tuple[str, ...] = ()  # quantities to plot: "state:mz", "current:t", "resistance"
+    #: axis label of a plot quantity where the default would not say what is plotted (e.g. a
+    #: "resistance" V/I whose path holds more than the junction)
+    labels: dict[str, str] = field(default_factory=dict)
     temperature: float | None = None  # circuit temperature [K]; None: the simulators' default 27 degC
     #: non-empty: the bench cannot be run physically on this device (one line: the finding and the
     #: measured reason, e.g. the write needs more bias than the calibrated limit); it is reported

@@ -14,7 +14,13 @@ STYLES = {"reference": "-", "ngspice": "--", "ngspice-osdi": "-.", "vacask": ":"
 
 
 def bench_plot(run) -> str | None:
-    """One figure per bench: the quantity on top, simulator minus reference below."""
+    """One figure per bench (PNG, base64): the quantity on top, simulator minus reference below."""
+    fig = bench_figure(run)
+    return None if fig is None else png_base64(fig)
+
+
+def bench_figure(run):
+    """The matplotlib figure of ``bench_plot`` (None for a bench without plots)."""
     plt = pyplot()
     b = run.bench
     if not b.plot:
@@ -32,7 +38,12 @@ def bench_plot(run) -> str | None:
                 axd.plot(x, y - yi, STYLES.get(name, "-"), color=COLORS.get(name), lw=1.0)
         style_pair(ax, axd, ylabel, xlabel, "sim - ref")
     fig.suptitle(f"{b.name}: {b.title}", fontsize=9)
-    return png_base64(fig)
+    return fig
+
+
+def resistance_label(term: str) -> str:
+    """What a "resistance" plot shows: the swept port's V/I, whatever else that path holds."""
+    return f"V({term})/I({term}) [ohm]"
 
 
 def _series(tr, what: str, bench):
@@ -43,7 +54,7 @@ def _series(tr, what: str, bench):
             i = tr.currents[term]
             with np.errstate(divide="ignore", invalid="ignore"):
                 r = np.where(np.abs(v) > 1e-9, v / i, np.nan)
-            return v, r, f"V({term}) [V]", "R [ohm]"
+            return v, r, f"V({term}) [V]", bench.labels.get("resistance") or resistance_label(term)
         return v, tr.currents[term] * 1e6, f"V({term}) [V]", f"I({term}) [uA]"
     t = tr.t * 1e9
     kind, name = what.split(":")

@@ -1,4 +1,5 @@
-"""`compactgen build`: a card becomes NAME.va, NAME.lib, NAME.md and manifest.json.
+"""`compactgen build`: a card becomes NAME.va, NAME.lib, NAME.md and manifest.json (the build
+manifest, format BUILD_FORMAT; a release bundle's manifest is release.json, another schema).
 
 Output is byte-identical for the same card (no dates), and written so that a failure leaves
 nothing half-written: every file is produced in memory first, then written to temporary
@@ -22,6 +23,10 @@ from compactgen.model.card import Card
 from compactgen.errors import InputError
 from compactgen.model.evaluate import figures as eval_figures
 from compactgen.targets.datasheet import datasheet
+
+BUILD_MANIFEST = "manifest.json"
+#: the "format" field of a build manifest (release.bundle.FORMAT: a release manifest's)
+BUILD_FORMAT = "compactgen-build/1"
 
 
 def _manifest_figure(x: float):
@@ -68,6 +73,7 @@ def build_files(card: Card, compiled: bool = True) -> dict[str, str | bytes]:
         if data is not None:
             files[render.osdi_file(ir)] = data
     manifest = {
+        "format": BUILD_FORMAT,
         "generator": f"compactgen {__version__}",
         "kind": ir.kind,
         "name": ir.name,
@@ -79,7 +85,7 @@ def build_files(card: Card, compiled: bool = True) -> dict[str, str | bytes]:
                   for k, v in sorted(files.items())},
         "compiled": {render.osdi_file(ir): osdi_entry},
     }
-    files["manifest.json"] = json.dumps(manifest, indent=2, sort_keys=True, allow_nan=False) + "\n"
+    files[BUILD_MANIFEST] = json.dumps(manifest, indent=2, sort_keys=True, allow_nan=False) + "\n"
     return files
 
 

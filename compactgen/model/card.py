@@ -20,7 +20,7 @@ from pathlib import Path
 
 from compactgen.devices import get_kind, kinds
 from compactgen.devices.common import shared_defaults
-from compactgen.errors import CardError, InputError, RangeError
+from compactgen.errors import CardError, InputError, RangeError, UnitError
 from compactgen.model.ir import ModelIR
 from compactgen.model.params import RESERVED, reserved_reason
 from compactgen.model.units import to_si
@@ -156,7 +156,10 @@ def parse_card(text: str, where: str = "<card>", path: Path | None = None) -> Ca
                 raise CardError(f"{key} is missing; expected a value in {spec.range_text(spec.card_unit)} ({spec.desc})")
             values[spec.name] = spec.default
             continue
-        v = to_si(params[spec.name], spec.unit, where=key)
+        try:
+            v = to_si(params[spec.name], spec.unit, where=key, hint_unit=spec.card_unit)
+        except UnitError as exc:
+            raise UnitError(f"{exc} (allowed range {spec.range_text(spec.card_unit)})") from None
         try:
             spec.check(v)
         except RangeError:
@@ -169,7 +172,7 @@ def parse_card(text: str, where: str = "<card>", path: Path | None = None) -> Ca
     for k, v in doc.get("uncertainty", {}).items():
         if k not in table:
             raise CardError(f"{where}: [uncertainty] {k}: not a parameter of {kind.key}")
-        uncertainty[k] = to_si(v, table[k].unit, where=f"{where}: [uncertainty] {k}")
+        uncertainty[k] = to_si(v, table[k].unit, where=f"{where}: [uncertainty] {k}", hint_unit=table[k].card_unit)
     from compactgen.model.variation import sigmas_from_uncertainty
 
     values = sigmas_from_uncertainty(values, uncertainty, given)

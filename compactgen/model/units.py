@@ -134,9 +134,10 @@ def _where(where: str) -> str:
     return f"{where}: " if where else ""
 
 
-def to_si(text, unit: str, where: str = "") -> float:
+def to_si(text, unit: str, where: str = "", hint_unit: str | None = None) -> float:
     """Convert ``text`` (a string with a unit, or a bare number for dimensionless ``unit``)
-    to a float in the SI unit ``unit``.
+    to a float in the SI unit ``unit``.  ``hint_unit``: the unit a number without one is
+    suggested in (a parameter's card unit, "nm" for a diameter); default ``unit``.
 
     ``where`` names the file and key for the error message.
     """
@@ -147,11 +148,11 @@ def to_si(text, unit: str, where: str = "") -> float:
             value = float(text)
             _finite(value, where, unit)
             return value
-        value = _to_si_pint(text, unit, where)  # refuses a bare number for a unit with a dimension
+        value = _to_si_pint(text, unit, where, hint_unit)  # refuses a bare number for a unit with a dimension
         _LEARNT.put("values", 1.0, "dimensionless", unit)
         return value
     if not isinstance(text, str):
-        return _to_si_pint(text, unit, where)
+        return _to_si_pint(text, unit, where, hint_unit)
     s = _clean(text)
     m = _QUANTITY.fullmatch(s)
     if m:
@@ -163,7 +164,7 @@ def to_si(text, unit: str, where: str = "") -> float:
     value = _number(_LEARNT.get("values", "to_si", s, unit))
     if value is not None:
         return value
-    value = _to_si_pint(text, unit, where)
+    value = _to_si_pint(text, unit, where, hint_unit)
     if not (m and _learn_to_si(m.group(2), unit, float(m.group(1)), value)):
         _LEARNT.put("values", value, "to_si", s, unit)  # e.g. an offset unit (degC): this value only
     return value
@@ -201,8 +202,9 @@ def _learn_to_si(unit_text: str, unit: str, x: float, value: float) -> bool:
     return _learn_factor(("to_si", unit_text, unit), mode, factor, checks)
 
 
-def _to_si_pint(text, unit: str, where: str = "") -> float:
+def _to_si_pint(text, unit: str, where: str = "", hint_unit: str | None = None) -> float:
     """to_si through pint (the reference the learnt factors reproduce)."""
+    hint = hint_unit or unit
     ureg = registry()
     target = ureg.Quantity(1.0, _canon(unit))
     if isinstance(text, bool):
@@ -213,7 +215,7 @@ def _to_si_pint(text, unit: str, where: str = "") -> float:
             _finite(value, where, unit)
             return value
         raise UnitError(
-            f"{_where(where)}the number {text!r} has no unit; write it with a unit, e.g. \"{text} {unit}\""
+            f"{_where(where)}the number {text!r} has no unit; write it with a unit, e.g. \"{text} {hint}\""
         )
     if not isinstance(text, str):
         raise UnitError(f"{_where(where)}expected a string like \"1.3 nm\", got {type(text).__name__} {text!r}")
@@ -226,7 +228,7 @@ def _to_si_pint(text, unit: str, where: str = "") -> float:
         q = ureg.Quantity(float(q), "")
     if q.dimensionless and not target.dimensionless:
         raise UnitError(
-            f"{_where(where)}{text!r} has no unit; expected a value in [{unit}], e.g. \"{q.magnitude} {unit}\""
+            f"{_where(where)}{text!r} has no unit; write it with a unit, e.g. \"{q.magnitude} {hint}\""
         )
     if q.check(target.dimensionality):
         value = float(q.to(target.units).magnitude)

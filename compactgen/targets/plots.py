@@ -16,7 +16,21 @@ def pyplot():
     return plt
 
 
+def plain_ticks(fig) -> None:
+    """Tick labels that read as values: no additive offset ("+1.234e3" beside the axis, which
+    makes a flat resistance unreadable); a power of ten, where one is needed, written as x10^n."""
+    from matplotlib.ticker import ScalarFormatter
+
+    for ax in fig.axes:
+        for axis in (ax.xaxis, ax.yaxis):
+            fmt = axis.get_major_formatter()
+            if isinstance(fmt, ScalarFormatter):  # log axes keep their own formatter
+                fmt.set_useOffset(False)
+                fmt.set_useMathText(True)
+
+
 def png_base64(fig) -> str:
+    plain_ticks(fig)
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=90, bbox_inches="tight")
     pyplot().close(fig)

@@ -25,7 +25,8 @@ def add_commands(sub) -> None:
     p.add_argument("--report", help="write an HTML report (data versus fit, residuals, correlations) here")
     p.add_argument("--name", help="model name of the fitted card (default: CARDNAME_fit)")
     p.add_argument("--free", help="comma-separated parameters to fit (default: what the data determine)")
-    p.add_argument("--fix", help="comma-separated parameters to keep at their card values")
+    p.add_argument("--fix", help="comma-separated parameters held fixed at their card values (listed under "
+                   "`fixed` in the fitted card's [provenance])")
     p.add_argument("--truth", help="for synthetic data: a card holding the true values, compared in the report")
     p.add_argument("--force", action="store_true", help="replace an existing output card (never the input)")
     p.set_defaults(func=cmd_fit)

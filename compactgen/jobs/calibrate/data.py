@@ -83,7 +83,7 @@ class Dataset:
                 return norm
             return text
         try:
-            return to_si(text, spec.si_unit, where=where)
+            return to_si(text, spec.si_unit, where=where, hint_unit=spec.example_unit)
         except UnitError as exc:
             raise DataError(str(exc)) from None
 

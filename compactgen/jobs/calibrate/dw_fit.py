@@ -4,10 +4,10 @@ The forward model is the steady state of the card's own wall equations (``calibr
 the ModelIR's state right-hand sides with the data's current density and field, pinning off).
 What wall-velocity files pin down (PHYSICS 6.3):
 
-- versus current density: the saturation speed v_D = (pi/2) gamma_e D/Ms gives dmi (Ms kept);
+- versus current density: the saturation speed v_D = (pi/2) gamma_e D/Ms gives dmi (Ms fixed);
   the current of half saturation, J_1/2 = 2 e alpha t_F D/(hbar theta_SH Delta), gives
   theta_sh/alpha.  Alone, these curves cannot separate theta_sh from alpha (theta_sh is fitted,
-  alpha kept).
+  alpha fixed).
 - versus perpendicular field: below the Walker field v = gamma0 Delta H_z/alpha, so alpha
   (with Delta from the card's ms, ki, kb, a_ex); above it the breakdown field adds dmi.
 Default free parameters: dmi and theta_sh; alpha as well when a file has field-driven points.
@@ -37,17 +37,17 @@ def _has_field(ds: Dataset) -> bool:
 
 
 def default_free(datasets: list[Dataset]) -> tuple[list[str], list[str]]:
-    """Free parameters implied by the data, and a note for every parameter kept and why."""
+    """Free parameters implied by the data, and a note for every parameter fixed and why."""
     field = any(_has_field(ds) for ds in datasets)
     free = ["dmi", "theta_sh"] + (["alpha"] if field else [])
     notes = []
     if not field:
-        notes.append("alpha kept: without field-driven velocities the current sweeps fix only theta_sh/alpha "
+        notes.append("alpha fixed: without field-driven velocities the current sweeps fix only theta_sh/alpha "
                      "(theta_sh is fitted)")
-    notes.append("ms, ki, kb, a_ex, t_free kept: the velocities fix the wall width and the DMI field only together "
+    notes.append("ms, ki, kb, a_ex, t_free fixed: the velocities fix the wall width and the DMI field only together "
                  "with them; measure them separately")
-    notes.append("xi_sot kept: the field-like torque hardly changes the steady speed of a Neel wall")
-    notes.append("h_dep and pin_pitch kept: the velocity model is the flow regime (pinning off)")
+    notes.append("xi_sot fixed: the field-like torque hardly changes the steady speed of a Neel wall")
+    notes.append("h_dep and pin_pitch fixed: the velocity model is the flow regime (pinning off)")
     return free, notes
 
 

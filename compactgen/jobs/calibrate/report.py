@@ -249,8 +249,12 @@ def fit_html(cf, truth: dict[str, float] | None = None, title: str = "") -> str:
     parts.append("<h2>Fitted card parameters</h2>" + parameter_rows(cf.specs, cf.start, cf.values, o.stderr,
                                                                        card_free, truth))
     if nuis_free:
-        parts.append("<h2>Data-only parameters (not in the card; kept in [provenance])</h2>"
+        parts.append("<h2>Data-only parameters (not in the card; stored in [provenance])</h2>"
                      + parameter_rows(cf.specs, cf.start, cf.values, o.stderr, nuis_free, truth))
+    if cf.fixed:
+        parts.append("<h2>Fixed parameters (held at their card values)</h2><p>"
+                     + ", ".join(f"<code>{html.escape(n)}</code>" for n in cf.fixed)
+                     + " (why: see Warnings and choices below; --fix fixes more, --free chooses the free ones)</p>")
     frows = "".join(f"<tr><td>{html.escape(k)}</td><td>{html.escape(d)}</td><td>{_g(b, u)}</td><td><b>{_g(a, u)}</b>"
                     f"</td><td>{_g(se, u)}</td></tr>" for k, (b, a, se, u, d) in cf.figures.items())
     parts.append("<h2>Key figures of the model (before and after)</h2><table><tr><th>figure</th><th>meaning</th>"

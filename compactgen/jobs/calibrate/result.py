@@ -36,6 +36,11 @@ class CardFit:
     fittable: tuple[str, ...] = (*STT_FITTABLE, *NUISANCE_SPECS)  # what this card kind's fit may free
 
     @property
+    def fixed(self) -> list[str]:
+        """Fittable parameters held at their card values (by default or by --fix)."""
+        return [n for n in self.fittable if n not in self.free]
+
+    @property
     def card_values(self) -> dict[str, float]:
         return {k: v for k, v in self.values.items() if k in self.card.values}
 
@@ -72,7 +77,7 @@ def provenance(cf: CardFit, date: str | None = None) -> dict:
         "fitted_from_sha256": card.sha256(),
         "method": METHOD,
         "free": list(cf.free),
-        "kept": [n for n in cf.fittable if n not in cf.free],
+        "fixed": cf.fixed,  # held at their card values (cards fitted by earlier versions say "kept")
         "model_evaluations": int(cf.nfev),
         "converged": bool(o.success),
         "notes": list(cf.fixed_notes),

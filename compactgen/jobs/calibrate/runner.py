@@ -66,7 +66,8 @@ def prepare_values(card, datasets: list[Dataset]) -> tuple[dict[str, float], lis
 
 
 def default_free(fn, datasets: list[Dataset], blocks: list[Block], values: dict[str, float]) -> tuple[list[str], list[str]]:
-    """Free parameters implied by the data, and a note for every parameter kept fixed and why."""
+    """Free parameters implied by the data, and a note for every parameter fixed (held at its card
+    value) and why."""
     kinds = {ds.kind for ds in datasets}
     used = set().union(*(b.uses for b in blocks))
     notes = []
@@ -79,12 +80,12 @@ def default_free(fn, datasets: list[Dataset], blocks: list[Block], values: dict[
             precessional |= bool(np.any(cur > 1.05 * ic0))
     free = [n for n in (*STT_FITTABLE, *NUISANCE_SPECS) if n in used]
     rules = {
-        "ms": (thermal, "ms kept: without thermally activated switching data Delta and H_k,eff cannot be separated"),
-        "attempt_time": (thermal, "attempt_time kept at its start value: no thermally activated switching data"),
-        "activation_exponent": (thermal, "activation_exponent kept: no thermally activated switching data"),
-        "alpha": (precessional, "alpha kept: without precessional switching data only alpha/eta is determined "
+        "ms": (thermal, "ms fixed: without thermally activated switching data Delta and H_k,eff cannot be separated"),
+        "attempt_time": (thermal, "attempt_time fixed at its start value: no thermally activated switching data"),
+        "activation_exponent": (thermal, "activation_exponent fixed: no thermally activated switching data"),
+        "alpha": (precessional, "alpha fixed: without precessional switching data only alpha/eta is determined "
                                 "(eta is fitted)"),
-        "v_half": ("resistance-bias" in kinds, "v_half kept: no resistance-versus-bias data"),
+        "v_half": ("resistance-bias" in kinds, "v_half fixed: no resistance-versus-bias data"),
     }
     out = []
     for n in free:
@@ -95,7 +96,7 @@ def default_free(fn, datasets: list[Dataset], blocks: list[Block], values: dict[
             notes.append(why)
     for n in STT_FITTABLE:
         if n not in used:
-            notes.append(f"{n} kept: none of the data depends on it")
+            notes.append(f"{n} fixed: none of the data depends on it")
     return out, notes
 
 

@@ -27,6 +27,12 @@ class MetaSpec:
     choices: tuple[str, ...] = ()
     example: str = ""
 
+    @property
+    def example_unit(self) -> str | None:
+        """The unit the example line writes the value in ("nm" of "# diameter: 35 nm"), if any."""
+        value = self.example.partition(":")[2].split(None, 1)
+        return value[1] if len(value) == 2 else None
+
 
 @dataclass(frozen=True)
 class Schema:

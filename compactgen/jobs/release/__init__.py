@@ -1,6 +1,6 @@
 """Model releases: immutable versioned bundles, comparison with a previous release, verdicts.
 
-    compactgen release CARD --version X -o RELEASES [--against RELEASES/<name>-<prev>] [--accept "why"]
+    compactgen release CARD VERSION -o RELEASES [--against RELEASES/<name>-<prev>] [--accept "why"]
     compactgen compare OLD_BUNDLE NEW_BUNDLE [--report changes.html]
     compactgen check-release BUNDLE...
 

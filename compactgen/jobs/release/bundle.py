@@ -3,10 +3,12 @@ and a manifest with a sha256 of every file.
 
 A bundle is written into a hidden staging folder beside its final place and renamed into
 place only when every file is written, so an interrupted release leaves no bundle; an
-existing version is never overwritten.  The manifest seals itself: ``manifest_sha256`` is the
-sha256 of the manifest written without that key, so an edited manifest is caught too.  That
-proves integrity against accidental change only (whoever can write a bundle can re-seal it);
-the bundle digest (sha256 of manifest.json), recorded outside the bundle, covers the rest.
+existing version is never overwritten.  The release manifest (``release.json``; bundles made
+before it was renamed hold it as ``manifest.json``, the name `compactgen build` uses for its
+own, other manifest) seals itself: ``manifest_sha256`` is the sha256 of the manifest written
+without that key, so an edited manifest is caught too.  That proves integrity against
+accidental change only (whoever can write a bundle can re-seal it); the bundle digest (sha256
+of the release manifest file), recorded outside the bundle, covers the rest.
 """
 from __future__ import annotations
 
@@ -27,8 +29,10 @@ from compactgen.errors import ReleaseError
 from compactgen.jobs.release.curves import CurveTable, read_csv
 from compactgen.jobs.release.semver import Version, parse_version
 
-FORMAT = "compactgen-release/1"
-MANIFEST = "manifest.json"
+FORMAT = "compactgen-release/1"  # the "format" of a release manifest (build.BUILD_FORMAT: a build's)
+MANIFEST = "release.json"
+#: the release manifest's name in bundles made before it was renamed (read, never written)
+OLD_MANIFEST = "manifest.json"
 SEAL = "manifest_sha256"
 #: manifest keys that differ between two releases of the same card (kept out of golden files)
 VOLATILE = ("created", SEAL)
@@ -82,7 +86,8 @@ class BundleCheck:
     unexpected: list[str] = field(default_factory=list)
     manifest_problem: str = ""
     n_files: int = 0
-    digest: str = ""  # sha256 of manifest.json as found
+    digest: str = ""  # sha256 of the release manifest file as found
+    manifest_name: str = MANIFEST  # OLD_MANIFEST in an older bundle
 
     @property
     def ok(self) -> bool:
@@ -91,10 +96,10 @@ class BundleCheck:
     def text(self) -> str:
         if self.ok:
             return (f"{self.root}: intact ({self.n_files} files and the manifest match their sha256)\n"
-                    f"  bundle digest: {self.digest} (sha256 of {MANIFEST})")
+                    f"  bundle digest: {self.digest} (sha256 of {self.manifest_name})")
         lines = [f"{self.root}: NOT INTACT"]
         if self.manifest_problem:
-            lines.append(f"  manifest.json: {self.manifest_problem}")
+            lines.append(f"  {self.manifest_name}: {self.manifest_problem}")
         lines += [f"  changed:    {p}" for p in self.changed]
         lines += [f"  missing:    {p}" for p in self.missing]
         lines += [f"  unexpected: {p} (not listed in the manifest)" for p in self.unexpected]
@@ -108,13 +113,21 @@ INTEGRITY_ONLY = ("This proves integrity against accidental change only (a damag
                   "record a later release keeps of it (--against).")
 
 
+def manifest_path(root: str | Path) -> Path:
+    """The release manifest of the bundle ``root``: release.json, or in a bundle made before
+    the rename manifest.json (ReleaseError if it has neither)."""
+    root = Path(root)
+    for name in (MANIFEST, OLD_MANIFEST):
+        if (root / name).is_file():
+            return root / name
+    raise ReleaseError(f"{root}: no {MANIFEST} (nor the {OLD_MANIFEST} of older bundles); not a release bundle "
+                       "made by `compactgen release`")
+
+
 def bundle_digest(root: str | Path) -> str:
-    """The digest that identifies a bundle: the sha256 of its manifest.json file (which holds the
-    sha256 of every other file), the same as `sha256sum manifest.json` prints."""
-    path = Path(root) / MANIFEST
-    if not path.is_file():
-        raise ReleaseError(f"{root}: no {MANIFEST}; not a release bundle made by `compactgen release`")
-    return sha256(path.read_bytes())
+    """The digest that identifies a bundle: the sha256 of its release manifest file (which holds
+    the sha256 of every other file), the same as `sha256sum release.json` prints."""
+    return sha256(manifest_path(root).read_bytes())
 
 
 def sha256(data: bytes | str) -> str:
@@ -135,9 +148,7 @@ def seal(manifest: dict) -> dict:
 def _read_manifest(root: Path) -> dict:
     if not root.is_dir():
         raise ReleaseError(f"{root}: no such release folder")
-    path = root / MANIFEST
-    if not path.is_file():
-        raise ReleaseError(f"{root}: no {MANIFEST}; not a release bundle made by `compactgen release`")
+    path = manifest_path(root)
     try:
         manifest = json.loads(path.read_text(encoding="utf-8"))
     except (json.JSONDecodeError, UnicodeDecodeError) as exc:
@@ -152,7 +163,7 @@ def check_bundle(root: str | Path) -> BundleCheck:
     """Re-hash every file of a bundle and the manifest itself."""
     root = Path(root)
     manifest = _read_manifest(root)
-    check = BundleCheck(root, digest=bundle_digest(root))
+    check = BundleCheck(root, digest=bundle_digest(root), manifest_name=manifest_path(root).name)
     listed = manifest.get("files")
     if not isinstance(listed, dict):
         check.manifest_problem = "has no table of file hashes"
@@ -168,7 +179,7 @@ def check_bundle(root: str | Path) -> BundleCheck:
             check.changed.append(rel)
     check.n_files = len(listed)
     present = {p.relative_to(root).as_posix() for p in root.rglob("*") if p.is_file()}
-    check.unexpected = sorted(present - set(listed) - {MANIFEST})
+    check.unexpected = sorted(present - set(listed) - {check.manifest_name})
     return check
 
 

@@ -9,7 +9,7 @@ import numpy as np
 
 from compactgen import __version__
 from compactgen.model import bignum
-from compactgen.jobs.release.compare import Band, Comparison, CurveRow
+from compactgen.jobs.release.compare import IDENTICAL, Band, Comparison, CurveRow
 
 _PREFIX = ((1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"), (1e-9, "n"),
            (1e-12, "p"), (1e-15, "f"))
@@ -115,12 +115,13 @@ def summary_section(c: Comparison) -> Section:
             verdict = f"{len(out)} of {len(group)} OUTSIDE BAND"
             det = [_fig_short(r) for r in _by_error(out)]
         else:
-            verdict = f"all {len(group)} within band" + (" (identical)" if not moved else "")
+            verdict = f"all {len(group)} within band" + (f" ({IDENTICAL})" if all(r.status == IDENTICAL for r in group)
+                                                         else "")
             det = [_fig_short(r) for r in moved]
         rows.append([label, verdict, _more(det)])
         bad.append(bool(out))
     out = c.curves_outside
-    same = sum(r.status == "identical" for r in c.curves)
+    n_identical = sum(r.status == IDENTICAL for r in c.curves)
     shown = [r.bench for r in c.curves if r.status == "stimulus changed"]
     judged = len(c.curves) - len(shown)
     if out:
@@ -128,7 +129,7 @@ def summary_section(c: Comparison) -> Section:
         det = [f"{r.bench} ({r.column}, {ratio_text(r.error)} x band)" if r.column else f"{r.bench} ({r.status})"
                for r in _by_error(out)]
     else:
-        verdict = f"all {judged} judged benches within band" + (f" ({same} identical)" if same else "")
+        verdict = f"all {judged} judged benches within band" + (f" ({n_identical} {IDENTICAL})" if n_identical else "")
         det = []
     if shown:
         det.insert(0, f"{len(shown)} not judged: stimulus follows the model and changed (see bench figures)")
@@ -297,11 +298,13 @@ def _series(table, spec: str, source: str = "reference"):
     xs = table.x * (1e9 if table.grid == "time" else 1.0)
     xlabel = "t [ns]" if table.grid == "time" else f"{table.grid} [{table.grid_unit}]"
     if spec == "resistance":
+        from compactgen.harness.verify_report import resistance_label
+
         term = table.grid.split("_", 1)[1]
         i = table.values(f"{source}:current_{term}")
         with np.errstate(divide="ignore", invalid="ignore"):
             r = np.where(np.abs(table.x) > 1e-9, table.x / i, np.nan)
-        return xs, r, xlabel, "R [ohm]"
+        return xs, r, xlabel, resistance_label(term)
     kind, name = spec.split(":")
     if kind == "state":
         return xs, table.values(f"{source}:{name}"), xlabel, name
@@ -351,11 +354,11 @@ def html(c: Comparison, plot_specs: dict[str, list[str]]) -> str:
                              undefined=jinja2.StrictUndefined)
     plots = []
     for row in c.curves:
-        if row.status in ("identical", "new", "REMOVED"):
+        if row.status in (IDENTICAL, "new", "REMOVED"):
             continue
         png = curve_plot(row, plot_specs.get(row.bench, []), c.old, c.new)
         if png:
             plots.append(dict(bench=row.bench, png=png))
-    identical = [r.bench for r in c.curves if r.status == "identical"]
+    identical = [r.bench for r in c.curves if r.status == IDENTICAL]
     return env.get_template("report/changes.html.j2").render(
         c=c, verdict=c.verdict(), sections=sections(c), plots=plots, identical=identical, version=__version__)

@@ -1,6 +1,7 @@
 """`compactgen release`, `compactgen compare`, `compactgen check-release`, and the demo step."""
 from __future__ import annotations
 
+import argparse
 import re
 import sys
 import time
@@ -23,7 +24,7 @@ class ReleaseOutcome:
     manifest: dict
     comparison: Comparison | None
     suite: object  # verify.SuiteResult
-    digest: str = ""  # sha256 of the bundle's manifest.json (bundle.bundle_digest)
+    digest: str = ""  # sha256 of the bundle's release.json (bundle.bundle_digest)
 
 
 def make_release(card_path: str | Path, version: str, out_root: str | Path, against: str | Path | None = None,
@@ -36,7 +37,7 @@ def make_release(card_path: str | Path, version: str, out_root: str | Path, agai
     the manifest and the report record.  ``suite`` is a SuiteResult already computed for this
     very card (the demo reuses its verification run); by default the suite runs here.
     """
-    from compactgen.jobs.build import build_files, write_files
+    from compactgen.jobs.build import BUILD_MANIFEST, build_files, write_files
     from compactgen.model.card import load_card
     from compactgen.model.evaluate import figures as eval_figures
     from compactgen.harness.verify_report import verify_html
@@ -59,12 +60,12 @@ def make_release(card_path: str | Path, version: str, out_root: str | Path, agai
     target = out_root / label
     if target.exists():
         raise ReleaseError(f"{target}: release {ver} of {card.name} exists already; a release is never "
-                           "overwritten, give a new --version")
+                           "overwritten, give a new VERSION")
     prev = None
     if against is not None:
         prev = load_bundle(against)
         if not ver > prev.version:
-            raise InputError(f"--version {ver}: not newer than the release compared against ({prev.label}, "
+            raise InputError(f"release VERSION {ver}: not newer than the release compared against ({prev.label}, "
                              f"{against}); semantic-version order must increase")
     t0 = time.perf_counter()
     reused = suite is not None
@@ -78,7 +79,7 @@ def make_release(card_path: str | Path, version: str, out_root: str | Path, agai
             stage.write(rel, files[rel])
 
         for rel, content in build_files(card).items():
-            if rel != MANIFEST:
+            if rel != BUILD_MANIFEST:  # the release manifest holds what it records, and more
                 add(rel, content)
         add(f"{card.name}.card.toml", card.text)
         if suite is None:
@@ -138,10 +139,12 @@ def compare_dirs(old: str | Path, new: str | Path, accept: str | None = None, si
 
 # ---- command line ------------------------------------------------------------------------------
 def add_commands(sub) -> None:
-    p = sub.add_parser("release", help="verify a card and freeze it as an immutable, versioned bundle")
+    p = sub.add_parser("release", help="verify a card and freeze it as an immutable, versioned bundle",
+                       usage="compactgen release [-h] CARD VERSION -o OUTPUT [--against AGAINST] [--accept ACCEPT]")
     p.add_argument("card")
-    p.add_argument("--version", required=True, dest="release_version", metavar="X",
-                   help="semantic version of this release, e.g. 1.0.0")
+    p.add_argument("release_version", metavar="VERSION", nargs="?", help="semantic version of this release, "
+                   "e.g. 1.0.0 (`compactgen --version` is the program's own version)")
+    p.add_argument("--version", dest="version_option", nargs="?", const="", help=argparse.SUPPRESS)
     p.add_argument("-o", "--output", required=True, help="folder holding the releases; the bundle is "
                    "OUTPUT/<name>-<version>/")
     p.add_argument("--against", help="a previous release bundle to compare with")
@@ -169,6 +172,9 @@ def add_commands(sub) -> None:
 
 
 def cmd_release(args) -> int:
+    if args.version_option is not None or args.release_version is None:
+        raise InputError(f"the release version is the argument after the card: `compactgen release {args.card} "
+                         "1.2.0 -o RELEASES` (`--version` is compactgen's own version, not the release's)")
     out = make_release(args.card, args.release_version, args.output, against=args.against, accept=args.accept)
     print(f"released {out.path}\nbundle digest: {out.digest} (sha256 of {out.path / MANIFEST})\n"
           f"Record this digest outside the bundle (release notes, ticket, signed tag): `compactgen check-release "

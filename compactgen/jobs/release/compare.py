@@ -167,6 +167,10 @@ class InterfaceChange:
     note: str = ""
 
 
+#: the verdict for a figure or a curve set that did not change at all (zero difference)
+IDENTICAL = "identical"
+
+
 @dataclass
 class FigureRow:
     group: str  # "key figure" or the bench name
@@ -176,14 +180,14 @@ class FigureRow:
     new: float | None
     band: Band
     error: float  # largest |new - old| / band over the sources compared
-    status: str  # same | within band | OUTSIDE BAND | new | REMOVED
+    status: str  # identical | within band | OUTSIDE BAND | new | REMOVED
     source: str = ""  # the source with the largest error
     desc: str = ""
     note: str = ""
 
     @property
     def ok(self) -> bool:
-        return self.status in ("same", "within band", "new")
+        return self.status in (IDENTICAL, "within band", "new")
 
     @property
     def rel(self) -> float | None:
@@ -205,7 +209,7 @@ class CurveRow:
 
     @property
     def ok(self) -> bool:
-        return self.status in ("identical", "within band", "stimulus changed", "new")
+        return self.status in (IDENTICAL, "within band", "stimulus changed", "new")
 
 
 @dataclass
@@ -451,7 +455,7 @@ def compare_figures(old: dict, new: dict) -> list[FigureRow]:
 
 
 def _status(err: float) -> str:
-    return "same" if err == 0 else ("within band" if err <= 1.0 else "OUTSIDE BAND")
+    return IDENTICAL if err == 0 else ("within band" if err <= 1.0 else "OUTSIDE BAND")
 
 
 def compared_sources(old: dict, new: dict, simulators=None) -> list[str]:
@@ -513,7 +517,7 @@ def compare_curve_tables(bench: str, old: CurveTable, new: CurveTable, stimulus_
         u = old.grid_unit
         notes.append(f"compared on {len(grid)} points over [{lo:.4g}, {hi:.4g}] {u} (old to {old.x.max():.4g}, "
                      f"new to {new.x.max():.4g} {u})")
-    worst = CurveRow(bench, "identical", old=old, new=new)
+    worst = CurveRow(bench, IDENTICAL, old=old, new=new)
     missing = [c for c in old.columns if c not in new.columns]
     for col, (unit, yo_all) in old.columns.items():
         if col in missing or not _judged(col, stimulus_note, observed):
@@ -539,7 +543,7 @@ def compare_curve_tables(bench: str, old: CurveTable, new: CurveTable, stimulus_
     elif stimulus_note and worst.error > 0:
         worst.status = "stimulus changed"  # shown, not judged: the bench figures carry the verdict
     else:
-        worst.status = "identical" if worst.error == 0 else ("within band" if worst.error <= 1 else "OUTSIDE BAND")
+        worst.status = IDENTICAL if worst.error == 0 else ("within band" if worst.error <= 1 else "OUTSIDE BAND")
     worst.note = "; ".join(notes)
     return worst
 

@@ -52,7 +52,7 @@ class Version:
         return self._key() < other._key()
 
 
-def parse_version(text: str, where: str = "--version") -> Version:
+def parse_version(text: str, where: str = "release VERSION") -> Version:
     """The Version of ``text``, or InputError saying exactly what is wrong with it."""
     def bad(why: str) -> InputError:
         return InputError(f"{where} {text!r}: {why}; expected {HINT}")
