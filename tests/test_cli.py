@@ -72,7 +72,7 @@ BASE = starter_card("stt-mtj", "bad")
     (lambda t: t.replace("tmr0 = 1.5", "tmr0 = nan"), "[parameters] tmr0: value nan [1] is not a finite number"),
     (lambda t: t.replace('t_free = "1.3 nm"', "t_free = 1.3"), "the number 1.3 has no unit"),
     (lambda t: t.replace('name = "bad"', 'name = "Bad-Name"'), "[device] name = 'Bad-Name' must be lower-case"),
-    (lambda t: t.replace('demag = "cylinder"', 'demag = "sphere"'), "[model] demag = 'sphere'; expected one of"),
+    (lambda t: t.replace('demag = "cylinder"', 'demag = "sphere"'), "[options] demag = 'sphere'; expected one of"),
     (lambda t: t.replace('ki = "1.3 mJ/m^2"', 'ki = "0.2 mJ/m^2"'), "must be positive (perpendicular free layer"),
 ])
 def test_bad_card_is_one_clear_line_and_no_output(tmp_path, edit, message):

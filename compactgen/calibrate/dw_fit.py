@@ -9,9 +9,9 @@ What wall-velocity files pin down (PHYSICS 6.3):
   theta_sh/alpha.  Alone, these curves cannot separate theta_sh from alpha (theta_sh is fitted,
   alpha kept).
 - versus perpendicular field: below the Walker field v = gamma0 Delta H_z/alpha, so alpha
-  (with Delta from the card's ms, ki, kb, a_ex); above it the breakdown field adds dmi.
+  (with Delta from the card's ms, ki, kv, a_ex); above it the breakdown field adds dmi.
 Default free parameters: dmi and theta_sh; alpha as well when a file has field-driven points.
-Never fitted by default: ms, t_free, ki, kb, a_ex (the velocities fix the wall width and the DMI
+Never fitted by default: ms, t_free, ki, kv, a_ex (the velocities fix the wall width and the DMI
 field only in combination with them: measure them separately), xi_sot, the in-plane fields, the
 geometry, the read-out, h_dep and pin_pitch (pinning is off in the flow regime), the limits.
 """
@@ -45,7 +45,7 @@ def default_free(datasets: list[Dataset]) -> tuple[list[str], list[str]]:
     if not field:
         notes.append("alpha kept: without field-driven velocities the current sweeps fix only theta_sh/alpha "
                      "(theta_sh is fitted)")
-    notes.append("ms, ki, kb, a_ex, t_free kept: the velocities fix the wall width and the DMI field only together "
+    notes.append("ms, ki, kv, a_ex, t_free kept: the velocities fix the wall width and the DMI field only together "
                  "with them; measure them separately")
     notes.append("xi_sot kept: the field-like torque hardly changes the steady speed of a Neel wall")
     notes.append("h_dep and pin_pitch kept: the velocity model is the flow regime (pinning off)")

@@ -62,7 +62,7 @@ class DwMtj(DeviceKind):
     def param_specs(self) -> list[ParamSpec]:
         keep = {"t_free": "ferromagnet (track) thickness", "ms": "saturation magnetisation of the track",
                 "ki": "interface anisotropy energy density of the track",
-                "kb": "bulk uniaxial anisotropy energy density of the track (perpendicular > 0)",
+                "kv": "bulk uniaxial anisotropy energy density of the track (perpendicular > 0)",
                 "alpha": "Gilbert damping of the track", "hx": None, "hy": None,
                 "hz": "external field along z (perpendicular; +z grows the domain between w1 and the wall)",
                 "tnom": "temperature at which the card values hold", "t_curie": None, "aniso_exp": None,
@@ -119,7 +119,7 @@ class DwMtj(DeviceKind):
         apply_variation(parts, VARIED, P["mtj_length"] * P["track_width"])
         L, w = P["track_length"], P["track_width"]
         # perpendicular track, thin-film demagnetisation (N_z = 1)
-        ku = parts.d("ku", anisotropy.uniaxial_energy_density(P["kb"], P["ki"], P["t_free"]))
+        ku = parts.d("ku", anisotropy.uniaxial_energy_density(P["kv"], P["ki"], P["t_free"]))
         hk = parts.d("hk", anisotropy.anisotropy_field(ku, P["ms"]))
         hk_eff = parts.d("hk_eff", anisotropy.effective_anisotropy_field(hk, P["ms"], 0, 1))
         parts.constraints.append(Constraint(hk_eff, "the effective anisotropy field H_k,eff = {value} of the track "
