@@ -114,7 +114,7 @@ def test_cross_parameter_refusal_names_values_units_and_relation(tmp_path, kind,
         assert fragment in err
     assert "(got" not in err and "margin" not in err
     # variation spreads and draws are not card values of the device: not listed
-    assert "sg_" not in err and "zg_" not in err and "area_ref" not in err
+    assert "sigma_global_" not in err and "draw_global_" not in err and "area_ref" not in err
 
 
 # ---- encodings and model names -------------------------------------------------------------------
@@ -212,11 +212,23 @@ def test_old_bulk_anisotropy_key_kb_is_read_into_kv_with_a_warning(kind):
 
 @pytest.mark.parametrize("kind", ["stt-mtj", "sot-mtj"])  # the kinds with options
 def test_old_options_table_model_is_read_with_a_warning_naming_options(kind):
-    text = starter_card(kind).replace("\n[options]\n", "\n[model]\n").replace('demag = "cylinder"', 'demag = "thin-film"')
+    text = starter_card(kind).replace("\n[options]\n", "\n[model]\n")
+    text = text.replace('demag = "cylinder"', 'demag = "thin-film"')
     with pytest.warns(RenamedInCard, match=r"card old\.toml: table \[model\] is renamed \[options\] .*\[model\] is "
                                            r"accepted in this release only"):
         card = parse_card(text, "old.toml")
     assert card.options["demag"] == "thin-film"
+
+
+def test_old_variation_names_are_read_into_the_new_ones_with_a_warning():
+    text = re.sub(r"^sigma_global_ra = .*\n|^sigma_mismatch_tmr0 = .*\n", "", starter_card("stt-mtj"), flags=re.M)
+    text = text.replace("[parameters]\n", "[parameters]\nsg_ra = 0.07\nsl_tmr0 = 0.02\n")
+    with pytest.warns(RenamedInCard) as caught:
+        card = parse_card(text, "old.toml")
+    messages = " | ".join(str(w.message) for w in caught)
+    assert "key [parameters] sg_ra is renamed sigma_global_ra (global sigma)" in messages
+    assert "key [parameters] sl_tmr0 is renamed sigma_mismatch_tmr0 (mismatch sigma)" in messages
+    assert card.values["sigma_global_ra"] == 0.07 and card.values["sigma_mismatch_tmr0"] == 0.02
 
 
 def test_old_and_new_name_together_is_refused_naming_both():

@@ -63,7 +63,8 @@ def test_options_of_the_designer_decks_are_the_ones_the_datasheet_states(built):
 def test_usage_lines_list_every_instance_parameter_and_no_draw(built):
     _, ir, files = built
     md, lib = files[f"{ir.name}.md"], files[f"{ir.name}.lib"]
-    instance = [s.name for s in ir.params if s.kind == "instance" and not s.name.startswith(("zg_", "zl_"))]
+    instance = [s.name for s in ir.params
+                if s.kind == "instance" and not s.name.startswith(("draw_global_", "draw_mismatch_"))]
     usage = render.usage_instance(ir)
     for text in (md, lib):
         assert usage in text
@@ -71,7 +72,7 @@ def test_usage_lines_list_every_instance_parameter_and_no_draw(built):
         for line in block.splitlines():
             if line.lower().startswith("x1"):
                 assert all(f" {n}=" in line for n in instance), line
-                assert "zl_" not in line and "zg_" not in line, line
+                assert "draw_mismatch_" not in line and "draw_global_" not in line, line
 
 
 def test_every_node_of_the_subcircuit_is_listed_with_its_scale(built):
@@ -106,7 +107,7 @@ def test_every_figure_states_its_conditions(built):
 def test_monte_carlo_section_says_how_to_seed_and_read_back(built):
     _, ir, files = built
     mc = _section(files[f"{ir.name}.md"], "Corners and Monte Carlo")
-    assert ".options seed=N" in mc and "@i.x1.izl_ra[dc]" in mc
+    assert ".options seed=N" in mc and "@i.x1.idraw_mismatch_ra[dc]" in mc
     assert "typical mean only" not in mc and "no Monte Carlo about ss or ff" in mc
 
 

@@ -120,8 +120,9 @@ def test_every_output_has_a_node_and_the_usage_line_sets_no_draws():
     for o in ir.monitored_outputs():
         assert f"\nR{o.name} {o.name} 0 1\n" in lib and f"\nB{o.name} 0 {o.name} I=nint(" in lib
     usage = render.usage_instance(ir)
-    assert "zl_" not in usage and "zg_" not in usage and "corner" not in usage
-    instance = [s.name for s in ir.params if s.kind == "instance" and not s.name.startswith(("zl_", "zg_"))]
+    assert "draw_mismatch_" not in usage and "draw_global_" not in usage and "corner" not in usage
+    instance = [s.name for s in ir.params
+                if s.kind == "instance" and not s.name.startswith(("draw_mismatch_", "draw_global_"))]
     assert all(f" {n}=" in usage for n in instance)
     assert f"*         {usage}\n" in lib
     # node names are unique across ports, states, outputs, auxiliary and temperature nodes
@@ -153,8 +154,8 @@ def test_monte_carlo_draws_read_back_are_the_draws_used_and_a_seed_repeats_them(
     assert read[0] == read[1]  # .options seed=N repeats every draw (ngspice 39)
     assert read[0] != read[2]
     first = read[0]
-    assert all(first["x1"][d] == first["x2"][d] for d in draws if d.startswith("zg_"))  # global: one per run
-    assert all(first["x1"][d] != first["x2"][d] for d in draws if d.startswith("zl_"))  # local: per instance
+    assert all(first["x1"][d] == first["x2"][d] for d in draws if d.startswith("draw_global_"))  # one per run
+    assert all(first["x1"][d] != first["x2"][d] for d in draws if d.startswith("draw_mismatch_"))  # per instance
     # the reference model with the draws read back gives the resistances ngspice computed
     for x in ("x1", "x2"):
         model = ReferenceModel(ir, first[x])

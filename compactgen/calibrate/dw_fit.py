@@ -58,7 +58,7 @@ def fit_dw_card(card, datasets: list[Dataset], free: list[str] | None = None, fi
     specs = {s.name: s for s in card.device.table()}
     # the data describe typical devices: the model is evaluated at the typical process point (corner 0,
     # no Monte Carlo draws; devices/variation.py); the card keeps its own corner and draws
-    process = {n: 0.0 for n in card.values if n == "corner" or n.startswith(("zg_", "zl_"))}
+    process = {n: 0.0 for n in card.values if n == "corner" or n.startswith(("draw_global_", "draw_mismatch_"))}
     start = dict(card.values, **process)
     auto, keep_notes = default_free(datasets)
     chosen = list(auto) if free is None else list(free)
