@@ -82,8 +82,10 @@ def _range(spec) -> str:
     return f"{'(' if spec.lo_open else '['}{b(spec.lo)}:{b(spec.hi)}{')' if spec.hi_open else ']'}"
 
 
-def _stress_expr(ir: ModelIR) -> sp.Expr:
-    return ir.range_output().expr
+def _range_output(ir: ModelIR, pr) -> dict:
+    """The range output (ir.RANGE_OUTPUT) for a template: name, unit, description, printed code."""
+    r = ir.range_output()
+    return dict(name=r.name, unit=r.unit, desc=r.desc.replace('"', "'"), code=pr.code(r.expr))
 
 
 #: unit in which an output's ngspice node reads (1 V = 1 unit), by the output's SI unit: values
@@ -145,7 +147,7 @@ def verilog_a(ir: ModelIR) -> str:
         time_scale=str(ir.time_scale),
         branches=[dict(pos=b.pos, neg=b.neg, desc=b.desc, code=pr.code(b.current)) for b in ir.branches],
         outputs=[dict(name=o.name, desc=o.desc, unit=o.unit, code=pr.code(o.expr)) for o in ir.outputs],
-        stress=pr.code(_stress_expr(ir)),
+        range_output=_range_output(ir, pr),
     )
     return environment().get_template("verilog_a/model.va.j2").render(**ctx)
 

@@ -124,3 +124,21 @@ def test_the_usage_line_keeps_mismatch_on_in_the_mc_section(tmp_path, ngspice):
     data = run_ngspice(deck)
     r = [float(data[f"x{i}.res"][0]) for i in range(1, 4)]
     assert len(set(r)) == 3 and np.ptp(r) / np.mean(r) > 1e-4  # mismatch sigma of ra is 1.5 %
+
+
+def test_range_output_drive_ratio_is_listed_among_the_outputs_with_unit_and_description(built):
+    _, ir, files = built
+    r = ir.range_output()
+    assert r.name == "drive_ratio"
+    md = files[f"{ir.name}.md"]
+    outputs = _section(md, "Outputs")
+    line = next(x for x in outputs.splitlines() if x.startswith(f"- `{r.name}`:"))
+    assert r.desc in line and f"ngspice node `X1.{r.name}` (1 V = 1)" in line and f"`{r.name}` [{r.unit}]" in line
+    assert f", `{r.name}` [{r.unit}]." in md  # the Verilog-A output variables
+    assert f"`{r.name}` = max(" in _section(md, "Calibrated range")
+    va = files[f"{ir.name}.va"]
+    assert f"real {r.name};" in va and f"(*desc=\"{r.desc}\", units=\"{r.unit}\"*)" in va
+    assert f"$warning(\"{ir.name}: driven beyond its calibrated range ({r.name} = %g)\", {r.name});" in va
+    for text in files.values():
+        if isinstance(text, str):
+            assert not re.search(r"\bstress\b", text)

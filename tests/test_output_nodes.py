@@ -1,4 +1,4 @@
-"""Every output of a model (ir.outputs and the range output `stress`) is readable in every target:
+"""Every output of a model (ir.outputs and the range output `drive_ratio`) is readable in every target:
 a sampled node per output in the ngspice subcircuit, an output variable in Verilog-A; the values
 equal the reference solver's; the range output is never negative; the statistical draws of a
 Monte Carlo run can be read back and are the ones the model used."""
@@ -63,13 +63,13 @@ def test_ngspice_output_nodes_equal_the_reference_on_a_dc_sweep(tmp_path, ngspic
         sim[o.name] = np.asarray(data[f"xdut.{o.name}"]) * scale  # node reads in `unit`
     ref = _reference_outputs(ir, bench)
     _assert_outputs_match(ir, sim, ref, f"ngspice {card_name}")
-    assert ref["stress"].max() > 1.0  # the sweep leaves the calibrated range ...
-    assert sim["stress"].min() >= 0.0  # ... and the range output is never negative
-    assert sim["stress"][np.argmin(np.abs(data["n_t"]))] == 0.0  # exactly 0 at 0 V
+    assert ref["drive_ratio"].max() > 1.0  # the sweep leaves the calibrated range ...
+    assert sim["drive_ratio"].min() >= 0.0  # ... and the range output is never negative
+    assert sim["drive_ratio"][np.argmin(np.abs(data["n_t"]))] == 0.0  # exactly 0 at 0 V
 
 
 @pytest.mark.simulator
-def test_verilog_a_outputs_equal_the_reference_and_stress_is_not_negative(tmp_path, vacask):
+def test_verilog_a_outputs_equal_the_reference_and_drive_ratio_is_not_negative(tmp_path, vacask):
     ir = example_card().ir()
     bench = Bench("outputs", "outputs on a DC sweep", "dc", {}, [], sweep=SWEEP)
     net = verify.vacask_netlist(ir, bench, f"{ir.name}.osdi")
@@ -79,14 +79,14 @@ def test_verilog_a_outputs_equal_the_reference_and_stress_is_not_negative(tmp_pa
     d = run_vacask(net, {f"{ir.name}.osdi": osdi})["dc1"].data
     sim = {o.name: np.asarray(d[f"xdut.{o.name}"]) for o in ir.monitored_outputs()}
     _assert_outputs_match(ir, sim, _reference_outputs(ir, bench), "VACASK")
-    assert sim["stress"].min() >= 0.0
-    assert sim["stress"][np.argmin(np.abs(d["n_t"]))] == 0.0
+    assert sim["drive_ratio"].min() >= 0.0
+    assert sim["drive_ratio"][np.argmin(np.abs(d["n_t"]))] == 0.0
 
 
 @pytest.mark.simulator
 def test_range_output_is_not_negative_in_a_cell_at_rest(tmp_path, ngspice):
-    # the designer's report: a 1T1MTJ cell at rest showed stress = -1.3e-16 (a derivative-carrying
-    # B-source linearised about a bias that changes sign between Newton iterations)
+    # the designer's report: a 1T1MTJ cell at rest showed stress (now drive_ratio) = -1.3e-16 (a
+    # derivative-carrying B-source linearised about a bias that changes sign between Newton iterations)
     ir = example_card().ir()
     lib = tmp_path / f"{ir.name}.lib"
     lib.write_text(render.ngspice(ir))
@@ -102,8 +102,8 @@ Xmtj bl b {ir.name} state0=-1
 .tran 10p 1n 0 2p
 """
     data = run_ngspice(deck)
-    assert np.min(data["xmtj.stress"]) >= 0.0
-    assert np.max(data["xmtj.stress"]) < 1e-9  # at rest: no drive
+    assert np.min(data["xmtj.drive_ratio"]) >= 0.0
+    assert np.max(data["xmtj.drive_ratio"]) < 1e-9  # at rest: no drive
 
 
 def test_sampled_values_print_only_for_ngspice():
@@ -127,7 +127,7 @@ def test_every_output_has_a_node_and_the_usage_line_sets_no_draws():
     assert f"*         {usage}\n" in lib
     # node names are unique across ports, states, outputs, auxiliary and temperature nodes
     names = [r["name"] for r in render.ngspice_nodes(ir)]
-    assert len(names) == len(set(names)) and {"res", "jdens", "stress", "clk"} <= set(names)
+    assert len(names) == len(set(names)) and {"res", "jdens", "drive_ratio", "clk"} <= set(names)
 
 
 def _mc_deck(lib: Path, name: str, seed: int, draws: list[str]) -> str:
