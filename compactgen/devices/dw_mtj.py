@@ -199,7 +199,7 @@ class DwMtj(DeviceKind):
             Figure("h_dmi", h_d, "A/m", "DMI field D/(mu0 Ms Delta)",
                    "A. Thiaville et al., EPL 100, 57002 (2012)"),
             Figure("h_kwall", h_kw, "A/m", "wall shape-anisotropy field N_x Ms"),
-            Figure("phi0", phi0, "rad", "wall angle at rest"),
+            Figure("phi_wall_rest", phi0, "rad", "wall angle at rest"),
             Figure("v_dmi", domain_wall.dmi_saturation_velocity(P["dmi"], P["ms"]), "m/s",
                    "DMI saturation velocity (pi/2) gamma_e D/Ms", "A. Thiaville et al., EPL 100, 57002 (2012)"),
             Figure("j_half", domain_wall.half_saturation_current_density(P["alpha"], h_d, P["theta_sh"], P["ms"],
