@@ -1,10 +1,10 @@
 """Cost of the output nodes in the ngspice subcircuit (one sampled node per output: res, jdens, ...,
-stress; the statistical draws sit on ground-to-ground sources and take no node), measured on one
+drive_ratio; the statistical draws sit on ground-to-ground sources and take no node), measured on one
 harness bench deck: the same deck with the library rendered with and without those nodes, run
 alternately in one ngspice worker.  Printed per library: CPU time of the ngspice process (sum over
 the runs; robust on a shared machine), median wall time, time points, and the ratio to the library
 without output nodes.  ``--previous FILE`` adds a library built by an earlier compactgen (copied
-next to the others under the model's name), e.g. one whose only output node was ``stress``.
+next to the others under the model's name), e.g. one whose only output node was ``stress`` (now ``drive_ratio``).
 
     PYTHONPATH=. python3 benchmarks/bench_output_nodes.py [--card examples/pmtj35_demo.toml]
         [--bench write_to_p_2ic0] [--repeat 15] [--previous OLD/NAME.lib]

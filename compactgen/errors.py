@@ -74,3 +74,7 @@ class Terminated(BaseException):
 
 class OutOfCalibratedRange(UserWarning):
     """Warning: the model is driven outside the range it was calibrated over."""
+
+
+class RenamedInCard(FutureWarning):
+    """Warning: a card uses the old name of a renamed table or key (accepted for one release)."""

@@ -32,7 +32,7 @@ def num(expr) -> float:
 
 # PHYSICS 6 inputs on a dw-mtj card: the REF free layer with t_F = 1 nm (K_u = 1e6 J/m^3 ->
 # K_eff = 3.716815e5 J/m^3), A = 15 pJ/m, D = 1 mJ/m^2, alpha = 0.3, theta_SH = 0.1
-TRACK = dict(ms=1e6, t_free=1e-9, ki=1e-3, kb=0.0, a_ex=15e-12, dmi=1e-3, alpha=0.3, theta_sh=0.1, xi_sot=0.0,
+TRACK = dict(ms=1e6, t_free=1e-9, ki=1e-3, kv=0.0, a_ex=15e-12, dmi=1e-3, alpha=0.3, theta_sh=0.1, xi_sot=0.0,
              hx=0.0, hy=0.0, hz=0.0, track_length=2e-6, track_width=50e-9, mtj_start=900e-9, mtj_length=100e-9,
              j_max=2e13)
 

@@ -138,9 +138,9 @@ def test_dw_card_recovers_the_track_truth(dw_fit_result, tmp_path):
         assert abs(cf.values[n] - truth.values[n]) <= 2 * se, (n, cf.values[n], truth.values[n], se)
         assert abs(cf.start[n] - truth.values[n]) > 5 * se, n
     # what wall velocities cannot separate is the truth's in the demo card, and stays as given
-    for n in ("ms", "t_free", "ki", "kb", "a_ex", "xi_sot", "h_dep"):
+    for n in ("ms", "t_free", "ki", "kv", "a_ex", "xi_sot", "h_dep"):
         assert cf.values[n] == cf.card.values[n] == truth.values[n], n
-    assert any(n.startswith("ms, ki, kb, a_ex, t_free fixed") for n in cf.fixed_notes)
+    assert any(n.startswith("ms, ki, kv, a_ex, t_free fixed") for n in cf.fixed_notes)
     gamma_e = abs(C.physical_constants["electron gyromag. ratio"][0])
     _, v_d, se, unit, _ = cf.figures["v_dmi"]
     assert unit == "m/s"

@@ -13,7 +13,7 @@ import pytest
 from compactgen.model.card import load_card, parse_card, starter_card
 from compactgen.cli import main
 from compactgen.model.constants import MU0
-from compactgen.errors import CardError
+from compactgen.errors import CardError, RenamedInCard
 from compactgen.model.params import RESERVED, reserved_reason
 from compactgen.model.evaluate import figures
 
@@ -114,7 +114,7 @@ def test_cross_parameter_refusal_names_values_units_and_relation(tmp_path, kind,
         assert fragment in err
     assert "(got" not in err and "margin" not in err
     # variation spreads and draws are not card values of the device: not listed
-    assert "sg_" not in err and "zg_" not in err and "area_ref" not in err
+    assert "sigma_global_" not in err and "draw_global_" not in err and "area_ref" not in err
 
 
 # ---- encodings and model names -------------------------------------------------------------------
@@ -188,3 +188,63 @@ def test_reserved_groups_name_the_identifiers_our_decks_use():
     vacask = "".join(p.read_text() for p in (TEMPLATE_DIR / "vacask").glob("*.j2"))
     for used in re.findall(r"^\s*model (\w+) ", vacask.replace("{{ m.name }}", ""), re.MULTILINE):
         assert used in RESERVED
+
+
+# ---- names renamed in this release: the old ones are read, with a warning, for one release ----------
+def _old_names(text: str) -> str:
+    """A card written with this release's names, turned back into the previous release's."""
+    assert re.search(r"^kv = ", text, re.M)
+    text = text.replace("\n[options]\n", "\n[model]\n")  # dw-mtj has no options
+    return re.sub(r'^kv = "[^"]*"', 'kb = "2.5e4 J/m^3"', text, flags=re.M)
+
+
+@pytest.mark.parametrize("kind", ["stt-mtj", "sot-mtj", "dw-mtj"])
+def test_old_bulk_anisotropy_key_kb_is_read_into_kv_with_a_warning(kind):
+    text = _old_names(starter_card(kind))
+    with pytest.warns(RenamedInCard) as caught:
+        card = parse_card(text, "old.toml")
+    messages = [str(w.message) for w in caught]
+    assert ("card old.toml: key [parameters] kb is renamed kv (bulk anisotropy); kb is accepted in this "
+            "release only") in messages
+    assert card.values["kv"] == 2.5e4 and "kv" in card.given and "kb" not in card.values
+    assert parse_card(text.replace("[model]", "[options]").replace("kb =", "kv =")).values == card.values
+
+
+@pytest.mark.parametrize("kind", ["stt-mtj", "sot-mtj"])  # the kinds with options
+def test_old_options_table_model_is_read_with_a_warning_naming_options(kind):
+    text = starter_card(kind).replace("\n[options]\n", "\n[model]\n")
+    text = text.replace('demag = "cylinder"', 'demag = "thin-film"')
+    with pytest.warns(RenamedInCard, match=r"card old\.toml: table \[model\] is renamed \[options\] .*\[model\] is "
+                                           r"accepted in this release only"):
+        card = parse_card(text, "old.toml")
+    assert card.options["demag"] == "thin-film"
+
+
+def test_old_variation_names_are_read_into_the_new_ones_with_a_warning():
+    text = re.sub(r"^sigma_global_ra = .*\n|^sigma_mismatch_tmr0 = .*\n", "", starter_card("stt-mtj"), flags=re.M)
+    text = text.replace("[parameters]\n", "[parameters]\nsg_ra = 0.07\nsl_tmr0 = 0.02\n")
+    with pytest.warns(RenamedInCard) as caught:
+        card = parse_card(text, "old.toml")
+    messages = " | ".join(str(w.message) for w in caught)
+    assert "key [parameters] sg_ra is renamed sigma_global_ra (global sigma)" in messages
+    assert "key [parameters] sl_tmr0 is renamed sigma_mismatch_tmr0 (mismatch sigma)" in messages
+    assert card.values["sigma_global_ra"] == 0.07 and card.values["sigma_mismatch_tmr0"] == 0.02
+
+
+def test_old_and_new_name_together_is_refused_naming_both():
+    text = re.sub(r"^(kv = .*)$", r'\1\nkb = "1 J/m^3"', starter_card("stt-mtj"), flags=re.M)
+    with pytest.raises(CardError, match=r"both\.toml: \[parameters\] both kb and kv given; kb is the old name of "
+                                        r"kv \(bulk anisotropy\): keep kv only"):
+        parse_card(text, "both.toml")
+    text = starter_card("stt-mtj").replace("[options]\n", '[model]\ndemag = "sphere"\n\n[options]\n')
+    with pytest.raises(CardError, match=r"both \[model\] and \[options\] given"):
+        parse_card(text, "both.toml")
+
+
+def test_cards_with_current_names_load_without_a_rename_warning(tmp_path):
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", RenamedInCard)
+        for kind in ("stt-mtj", "sot-mtj", "dw-mtj"):
+            parse_card(starter_card(kind))

@@ -209,9 +209,9 @@ def _array_instance(c, data, cell: str, section: str) -> dict:
 
     inst = {"state0": ARRAY_CELLS[cell][2], "corner": CORNERS.get(section, 0.0)}
     for s in c.ir().params:
-        if s.name.startswith("zg_"):
+        if s.name.startswith("draw_global_"):
             inst[s.name] = float(data[f"@i.x00.i{s.name}[dc]"][0])  # global: one value per run
-        elif s.name.startswith("zl_"):
+        elif s.name.startswith("draw_mismatch_"):
             inst[s.name] = float(data[f"@i.{cell}.i{s.name}[dc]"][0])
     return inst
 
@@ -327,10 +327,11 @@ def test_array_read_margins_at_the_corners(array_runs, ngspice):
 @pytest.mark.simulator
 def test_array_monte_carlo_run_is_seeded_and_its_draws_are_read_back(array_runs, tmp_path, ngspice):
     run = array_runs[("mc", "bsource")]
-    draws = {cell: {k: v for k, v in run["cells"][cell]["inst"].items() if k.startswith("zl_")} for cell in ARRAY_CELLS}
+    draws = {cell: {k: v for k, v in run["cells"][cell]["inst"].items() if k.startswith("draw_mismatch_")}
+             for cell in ARRAY_CELLS}
     assert all(v != 0.0 for d in draws.values() for v in d.values())
     assert len({tuple(d.values()) for d in draws.values()}) == 4  # mismatch: each junction its own draws
-    assert any(v != 0.0 for k, v in run["cells"]["x00"]["inst"].items() if k.startswith("zg_"))
+    assert any(v != 0.0 for k, v in run["cells"]["x00"]["inst"].items() if k.startswith("draw_global_"))
     # the same seed draws the same values again
     _, _, again = run_deck("stt_2x2_array.cir.j2", "pmtj35_demo.toml", tmp_path, section="mc", seed=ARRAY_SEED)
     for cell in ARRAY_CELLS:

@@ -86,7 +86,7 @@ BASE = starter_card("stt-mtj", "bad")
     (lambda t: t.replace('ms = "1.0 MA/m"', "ms = 1.1"), 'e.g. "1.1 MA/m" (allowed range'),
     (lambda t: t + '\n[uncertainty]\ndiameter = 2\n', '[uncertainty] diameter: the number 2 has no unit; write it with a unit, e.g. "2 nm"'),
     (lambda t: t.replace('name = "bad"', 'name = "Bad-Name"'), "[device] name = 'Bad-Name' must be lower-case"),
-    (lambda t: t.replace('demag = "cylinder"', 'demag = "sphere"'), "[model] demag = 'sphere'; expected one of"),
+    (lambda t: t.replace('demag = "cylinder"', 'demag = "sphere"'), "[options] demag = 'sphere'; expected one of"),
     (lambda t: t.replace('ki = "1.3 mJ/m^2"', 'ki = "0.2 mJ/m^2"'), "must be positive (perpendicular free layer"),
 ])
 def test_bad_card_is_one_clear_line_and_no_output(tmp_path, edit, message):

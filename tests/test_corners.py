@@ -21,8 +21,8 @@ def test_sigma_from_card_uncertainty():
 
     text = (Path(__file__).resolve().parent.parent / "examples" / "pmtj35_demo.toml").read_text()
     card = parse_card(text + '\n[uncertainty]\nra = "0.2 ohm*um^2"\n', "<fit>")
-    assert card.values["sg_ra"] == pytest.approx(0.2 / 4.0)  # standard error / value
-    assert card.values["sg_tmr0"] == 0.03  # no fit: the default
+    assert card.values["sigma_global_ra"] == pytest.approx(0.2 / 4.0)  # standard error / value
+    assert card.values["sigma_global_tmr0"] == 0.03  # no fit: the default
 
 
 def test_corner_multipliers_are_lognormal_in_sigma():
@@ -32,9 +32,9 @@ def test_corner_multipliers_are_lognormal_in_sigma():
     assert figures(ir, {"corner": -3.0})["r_p"] == pytest.approx(base * np.exp(-3 * 0.03), rel=1e-12)
     # mismatch scales with 1/sqrt(area): a device of area_ref has sigma sl, a 4x larger one sl/2
     area = np.pi * 35e-9**2 / 4
-    over = {"zl_ra": 1.0, "area_ref": area}
+    over = {"draw_mismatch_ra": 1.0, "area_ref": area}
     assert figures(ir, over)["r_p"] == pytest.approx(base * np.exp(0.015), rel=1e-12)
-    over = {"zl_ra": 1.0, "area_ref": area / 4}
+    over = {"draw_mismatch_ra": 1.0, "area_ref": area / 4}
     assert figures(ir, over)["r_p"] == pytest.approx(base * np.exp(0.0075), rel=1e-12)
 
 

@@ -63,7 +63,8 @@ def test_options_of_the_designer_decks_are_the_ones_the_datasheet_states(built):
 def test_usage_lines_list_every_instance_parameter_and_no_draw(built):
     _, ir, files = built
     md, lib = files[f"{ir.name}.md"], files[f"{ir.name}.lib"]
-    instance = [s.name for s in ir.params if s.kind == "instance" and not s.name.startswith(("zg_", "zl_"))]
+    instance = [s.name for s in ir.params
+                if s.kind == "instance" and not s.name.startswith(("draw_global_", "draw_mismatch_"))]
     usage = render.usage_instance(ir)
     for text in (md, lib):
         assert usage in text
@@ -71,7 +72,7 @@ def test_usage_lines_list_every_instance_parameter_and_no_draw(built):
         for line in block.splitlines():
             if line.lower().startswith("x1"):
                 assert all(f" {n}=" in line for n in instance), line
-                assert "zl_" not in line and "zg_" not in line, line
+                assert "draw_mismatch_" not in line and "draw_global_" not in line, line
 
 
 def test_every_node_of_the_subcircuit_is_listed_with_its_scale(built):
@@ -106,7 +107,7 @@ def test_every_figure_states_its_conditions(built):
 def test_monte_carlo_section_says_how_to_seed_and_read_back(built):
     _, ir, files = built
     mc = _section(files[f"{ir.name}.md"], "Corners and Monte Carlo")
-    assert ".options seed=N" in mc and "@i.x1.izl_ra[dc]" in mc
+    assert ".options seed=N" in mc and "@i.x1.idraw_mismatch_ra[dc]" in mc
     assert "typical mean only" not in mc and "no Monte Carlo about ss or ff" in mc
 
 
@@ -123,3 +124,21 @@ def test_the_usage_line_keeps_mismatch_on_in_the_mc_section(tmp_path, ngspice):
     data = run_ngspice(deck)
     r = [float(data[f"x{i}.res"][0]) for i in range(1, 4)]
     assert len(set(r)) == 3 and np.ptp(r) / np.mean(r) > 1e-4  # mismatch sigma of ra is 1.5 %
+
+
+def test_range_output_drive_ratio_is_listed_among_the_outputs_with_unit_and_description(built):
+    _, ir, files = built
+    r = ir.range_output()
+    assert r.name == "drive_ratio"
+    md = files[f"{ir.name}.md"]
+    outputs = _section(md, "Outputs")
+    line = next(x for x in outputs.splitlines() if x.startswith(f"- `{r.name}`:"))
+    assert r.desc in line and f"ngspice node `X1.{r.name}` (1 V = 1)" in line and f"`{r.name}` [{r.unit}]" in line
+    assert f", `{r.name}` [{r.unit}]." in md  # the Verilog-A output variables
+    assert f"`{r.name}` = max(" in _section(md, "Calibrated range")
+    va = files[f"{ir.name}.va"]
+    assert f"real {r.name};" in va and f"(*desc=\"{r.desc}\", units=\"{r.unit}\"*)" in va
+    assert f"$warning(\"{ir.name}: driven beyond its calibrated range ({r.name} = %g)\", {r.name});" in va
+    for text in files.values():
+        if isinstance(text, str):
+            assert not re.search(r"\bstress\b", text)

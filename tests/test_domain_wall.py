@@ -32,7 +32,7 @@ GAMMA_E = abs(C.physical_constants["electron gyromag. ratio"][0])
 GAMMA0 = MU0 * GAMMA_E
 A_EX, MS, T_F, D = 15e-12, 1.0e6, 1e-9, 1e-3
 K_EFF = 1.0e6 - MU0 * MS**2 / 2
-PHYSICS_6 = dict(a_ex=A_EX, ms=MS, t_free=T_F, ki=1.0e-3, kb=0.0, dmi=D, alpha=0.3, theta_sh=0.1,
+PHYSICS_6 = dict(a_ex=A_EX, ms=MS, t_free=T_F, ki=1.0e-3, kv=0.0, dmi=D, alpha=0.3, theta_sh=0.1,
                  track_length=2e-6, track_width=50e-9, mtj_start=900e-9, mtj_length=100e-9, xi_sot=0.0, j_max=2e13)
 
 

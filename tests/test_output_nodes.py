@@ -1,4 +1,4 @@
-"""Every output of a model (ir.outputs and the range output `stress`) is readable in every target:
+"""Every output of a model (ir.outputs and the range output `drive_ratio`) is readable in every target:
 a sampled node per output in the ngspice subcircuit, an output variable in Verilog-A; the values
 equal the reference solver's; the range output is never negative; the statistical draws of a
 Monte Carlo run can be read back and are the ones the model used."""
@@ -64,13 +64,13 @@ def test_ngspice_output_nodes_equal_the_reference_on_a_dc_sweep(tmp_path, ngspic
         sim[o.name] = np.asarray(data[f"xdut.{o.name}"]) * scale  # node reads in `unit`
     ref = _reference_outputs(ir, bench)
     _assert_outputs_match(ir, sim, ref, f"ngspice {card_name}")
-    assert ref["stress"].max() > 1.0  # the sweep leaves the calibrated range ...
-    assert sim["stress"].min() >= 0.0  # ... and the range output is never negative
-    assert sim["stress"][np.argmin(np.abs(data["n_t"]))] == 0.0  # exactly 0 at 0 V
+    assert ref["drive_ratio"].max() > 1.0  # the sweep leaves the calibrated range ...
+    assert sim["drive_ratio"].min() >= 0.0  # ... and the range output is never negative
+    assert sim["drive_ratio"][np.argmin(np.abs(data["n_t"]))] == 0.0  # exactly 0 at 0 V
 
 
 @pytest.mark.simulator
-def test_verilog_a_outputs_equal_the_reference_and_stress_is_not_negative(tmp_path, vacask):
+def test_verilog_a_outputs_equal_the_reference_and_drive_ratio_is_not_negative(tmp_path, vacask):
     ir = example_card().ir()
     bench = Bench("outputs", "outputs on a DC sweep", "dc", {}, [], sweep=SWEEP)
     net = verify.vacask_netlist(ir, bench, f"{ir.name}.osdi")
@@ -80,14 +80,14 @@ def test_verilog_a_outputs_equal_the_reference_and_stress_is_not_negative(tmp_pa
     d = run_vacask(net, {f"{ir.name}.osdi": osdi})["dc1"].data
     sim = {o.name: np.asarray(d[f"xdut.{o.name}"]) for o in ir.monitored_outputs()}
     _assert_outputs_match(ir, sim, _reference_outputs(ir, bench), "VACASK")
-    assert sim["stress"].min() >= 0.0
-    assert sim["stress"][np.argmin(np.abs(d["n_t"]))] == 0.0
+    assert sim["drive_ratio"].min() >= 0.0
+    assert sim["drive_ratio"][np.argmin(np.abs(d["n_t"]))] == 0.0
 
 
 @pytest.mark.simulator
 def test_range_output_is_not_negative_in_a_cell_at_rest(tmp_path, ngspice):
-    # the designer's report: a 1T1MTJ cell at rest showed stress = -1.3e-16 (a derivative-carrying
-    # B-source linearised about a bias that changes sign between Newton iterations)
+    # the designer's report: a 1T1MTJ cell at rest showed stress (now drive_ratio) = -1.3e-16 (a
+    # derivative-carrying B-source linearised about a bias that changes sign between Newton iterations)
     ir = example_card().ir()
     lib = tmp_path / f"{ir.name}.lib"
     lib.write_text(render.ngspice(ir))
@@ -103,8 +103,8 @@ Xmtj bl b {ir.name} state0=-1
 .tran 10p 1n 0 2p
 """
     data = run_ngspice(deck)
-    assert np.min(data["xmtj.stress"]) >= 0.0
-    assert np.max(data["xmtj.stress"]) < 1e-9  # at rest: no drive
+    assert np.min(data["xmtj.drive_ratio"]) >= 0.0
+    assert np.max(data["xmtj.drive_ratio"]) < 1e-9  # at rest: no drive
 
 
 def test_sampled_values_print_only_for_ngspice():
@@ -121,13 +121,14 @@ def test_every_output_has_a_node_and_the_usage_line_sets_no_draws():
     for o in ir.monitored_outputs():
         assert f"\nR{o.name} {o.name} 0 1\n" in lib and f"\nB{o.name} 0 {o.name} I=nint(" in lib
     usage = render.usage_instance(ir)
-    assert "zl_" not in usage and "zg_" not in usage and "corner" not in usage
-    instance = [s.name for s in ir.params if s.kind == "instance" and not s.name.startswith(("zl_", "zg_"))]
+    assert "draw_mismatch_" not in usage and "draw_global_" not in usage and "corner" not in usage
+    instance = [s.name for s in ir.params
+                if s.kind == "instance" and not s.name.startswith(("draw_mismatch_", "draw_global_"))]
     assert all(f" {n}=" in usage for n in instance)
     assert f"*         {usage}\n" in lib
     # node names are unique across ports, states, outputs, auxiliary and temperature nodes
     names = [r["name"] for r in render.ngspice_nodes(ir)]
-    assert len(names) == len(set(names)) and {"res", "jdens", "stress", "clk"} <= set(names)
+    assert len(names) == len(set(names)) and {"res", "jdens", "drive_ratio", "clk"} <= set(names)
 
 
 def _mc_deck(lib: Path, name: str, seed: int, draws: list[str]) -> str:
@@ -154,8 +155,8 @@ def test_monte_carlo_draws_read_back_are_the_draws_used_and_a_seed_repeats_them(
     assert read[0] == read[1]  # .options seed=N repeats every draw (ngspice 39)
     assert read[0] != read[2]
     first = read[0]
-    assert all(first["x1"][d] == first["x2"][d] for d in draws if d.startswith("zg_"))  # global: one per run
-    assert all(first["x1"][d] != first["x2"][d] for d in draws if d.startswith("zl_"))  # local: per instance
+    assert all(first["x1"][d] == first["x2"][d] for d in draws if d.startswith("draw_global_"))  # one per run
+    assert all(first["x1"][d] != first["x2"][d] for d in draws if d.startswith("draw_mismatch_"))  # per instance
     # the reference model with the draws read back gives the resistances ngspice computed
     for x in ("x1", "x2"):
         model = ReferenceModel(ir, first[x])

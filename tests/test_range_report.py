@@ -39,9 +39,9 @@ T = np.linspace(0.0, 10e-9, 11)
 def test_lists_each_instance_and_stretch_and_exits_1(tmp_path, capsys):
     raw = write_ascii_raw(tmp_path / "a.raw", {
         "time": T,
-        "v(x1.stress)": np.array([0, 0.5, 1.2, 1.3, 0.9, 0.2, 1.1, 0.3, 0, 0, 0.0]),
-        "v(xarr.x3.stress)": np.array([0, 0, 0, 0, 0, 0, 0, 0, 0, 2.5, 3.0]),
-        "v(x2.stress)": np.full(11, 1.0),  # exactly at the limit is inside
+        "v(x1.drive_ratio)": np.array([0, 0.5, 1.2, 1.3, 0.9, 0.2, 1.1, 0.3, 0, 0, 0.0]),
+        "v(xarr.x3.drive_ratio)": np.array([0, 0, 0, 0, 0, 0, 0, 0, 0, 2.5, 3.0]),
+        "v(x2.drive_ratio)": np.full(11, 1.0),  # exactly at the limit is inside
         "v(x1.mz)": np.zeros(11),
     })
     assert main(["range-report", str(raw)]) == 1
@@ -54,12 +54,12 @@ def test_lists_each_instance_and_stretch_and_exits_1(tmp_path, capsys):
 
 
 def test_inside_the_range_exits_0(tmp_path, capsys):
-    raw = write_ascii_raw(tmp_path / "b.raw", {"time": T, "v(x1.stress)": np.linspace(0, 1, 11)})
+    raw = write_ascii_raw(tmp_path / "b.raw", {"time": T, "v(x1.drive_ratio)": np.linspace(0, 1, 11)})
     assert main(["range-report", str(raw)]) == 0
     assert "stayed inside" in capsys.readouterr().out
 
 
-@pytest.mark.parametrize("case", ["missing", "not_raw", "truncated", "no_stress", "bad_lib"])
+@pytest.mark.parametrize("case", ["missing", "not_raw", "truncated", "no_drive_ratio", "bad_lib"])
 def test_bad_input_exits_2_with_a_clear_message(tmp_path, capsys, case):
     args = ["range-report"]
     if case == "missing":
@@ -70,15 +70,15 @@ def test_bad_input_exits_2_with_a_clear_message(tmp_path, capsys, case):
         args.append(str(tmp_path / "deck.cir"))
         expect = "not a readable SPICE3 raw file"
     elif case == "truncated":
-        raw = write_ascii_raw(tmp_path / "t.raw", {"time": T, "v(x1.stress)": T * 0})
+        raw = write_ascii_raw(tmp_path / "t.raw", {"time": T, "v(x1.drive_ratio)": T * 0})
         raw.write_text(raw.read_text()[:-40])
         args.append(str(raw))
         expect = "truncated"
-    elif case == "no_stress":
+    elif case == "no_drive_ratio":
         args.append(str(write_ascii_raw(tmp_path / "n.raw", {"time": T, "v(out)": T})))
-        expect = "no vectors named <instance>.stress"
+        expect = "no vectors named <instance>.drive_ratio"
     else:
-        args += [str(write_ascii_raw(tmp_path / "l.raw", {"time": T, "v(x1.stress)": T * 0})), "--lib",
+        args += [str(write_ascii_raw(tmp_path / "l.raw", {"time": T, "v(x1.drive_ratio)": T * 0})), "--lib",
                  str(tmp_path / "l.raw")]
         expect = "not an ngspice library written by `compactgen build`"
     assert main(args) == 2
@@ -91,13 +91,13 @@ def test_lib_selects_the_instances_of_its_model_and_shows_its_outputs(tmp_path):
     lib_path = tmp_path / f"{ir.name}.lib"
     lib_path.write_text(render.ngspice(ir))
     lib = read_library(lib_path)
-    assert lib.model == ir.name and set(lib.outputs) == {"res", "jdens", "stress"}
+    assert lib.model == ir.name and set(lib.outputs) == {"res", "jdens", "drive_ratio"}
     assert "v_max = 1.2 V" in lib.limits
     raw = write_ascii_raw(tmp_path / "c.raw", {
         "time": T,
-        "v(x1.stress)": np.array([0, 0, 1.5, 0, 0, 0, 0, 0, 0, 0, 0.0]),
+        "v(x1.drive_ratio)": np.array([0, 0, 1.5, 0, 0, 0, 0, 0, 0, 0, 0.0]),
         "v(x1.res)": np.full(11, 9.5), "v(x1.jdens)": np.full(11, -30.0),
-        "v(xother.stress)": np.full(11, 2.0),  # another model's instance: no res/jdens nodes
+        "v(xother.drive_ratio)": np.full(11, 2.0),  # another model's instance: no res/jdens nodes
     })
     instances, found = scan(raw, lib)
     assert instances == ["x1"] and len(found) == 1
@@ -136,7 +136,8 @@ R2 m 0 20k
     grid = np.linspace(0, 3e-9, 3001)
     with pytest.warns(OutOfCalibratedRange):  # the reference warns too
         tr = model.transient({"t": Pwl(corners)}, 3e-9, t_eval=grid)
-    s = model.output("stress", {"t": tr.voltages["t"], "b": tr.voltages["b"]}, [tr.states[x.name] for x in ir.states])
+    s = model.output("drive_ratio", {"t": tr.voltages["t"], "b": tr.voltages["b"]},
+                     [tr.states[x.name] for x in ir.states])
     over = grid[s > 1]
     # ngspice's time points are at most 2 ps apart (step cap): the stretch ends agree within 2 ps
     assert found[0].start == pytest.approx(over[0], abs=2e-12)

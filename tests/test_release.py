@@ -144,6 +144,7 @@ def test_interface_breaks_are_flagged_and_additions_are_not():
     new["parameters"].append({"name": "r_series", "unit": "ohm", "kind": "model", "default": 0.0})
     new["conventions"][2] = new["conventions"][2].replace("toward the parallel", "toward the antiparallel")
     new["lib_sections"] = [s for s in new["lib_sections"] if s != "ss"] + ["corner_x"]
+    new["range_output"]["name"] = "stress"
     changes = {c.item: c for c in compare_interface(base, new)}
     assert changes["port order"].breaking and changes["port order"].new == "b t"
     assert changes["parameter xi_fl"].breaking and "removed" in changes["parameter xi_fl"].new
@@ -152,6 +153,18 @@ def test_interface_breaks_are_flagged_and_additions_are_not():
     assert changes["conventions (sign, ports, states)"].breaking
     assert not changes["parameter r_series"].breaking  # an addition leaves netlists working
     assert changes[".lib section ss"].breaking and not changes[".lib section corner_x"].breaking
+    assert changes["range output"].breaking and changes["range output"].new == "stress [1]"
+
+
+def test_interface_record_names_the_range_output_with_unit_and_description():
+    ir = load_card(EXAMPLE).ir()
+    rec = interface_record(ir)
+    assert rec["range_output"] == {"name": "drive_ratio", "unit": "1", "description": ir.range_output().desc}
+    assert "calibrated limit" in rec["range_output"]["description"]
+    assert "drive_ratio" not in [o["name"] for o in rec["outputs"]]  # listed once, as the range output
+    old = copy.deepcopy(rec)
+    del old["range_output"]  # a bundle made before the record held it: nothing to compare
+    assert compare_interface(old, rec) == []
 
 
 def test_bands_come_from_one_table_with_reasons():

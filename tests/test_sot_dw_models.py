@@ -102,3 +102,18 @@ def test_build_writes_the_datasheet_with_the_internal_node(tmp_path):
                      "dwtrack_demo.osdi.lib", "dwtrack_demo.va", "manifest.json"]
     sheet = (out / "dwtrack_demo.md").read_text()
     assert "`mid`" in sheet and "`xw`" in sheet and "v_dmi" in sheet
+
+
+def test_no_figure_is_named_like_a_parameter_of_any_kind():
+    """A figure named like a parameter (dw-mtj's rest wall angle was `phi0`, the macrospin kinds'
+    instance parameter) reads in the datasheet and manifest as that parameter's value."""
+    from compactgen.devices import get_kind, kinds
+
+    params = {name: kind for kind in kinds() for name in get_kind(kind).table().names()}
+    for kind in sorted(kinds()):
+        figures = [f.name for f in parse_card(starter_card(kind)).ir().figures]
+        assert figures and len(figures) == len(set(figures))
+        clashes = {f: params[f] for f in figures if f in params}
+        assert not clashes, f"{kind}: figure(s) named like a parameter (of kind): {clashes}"
+    dw = [f.name for f in parse_card(starter_card("dw-mtj")).ir().figures]
+    assert "phi_wall_rest" in dw and "phi0" not in dw

@@ -116,7 +116,7 @@ def test_llg_with_spin_orbit_torque_matches_the_implicit_gilbert_equation():
     ir, v = sot_ir(alpha=0.07, theta_sh=-0.25, xi_sot=0.4, hx=15e3, hy=-4e3, hz=2e3, ki=1.0e-3, t_free=1.0e-9)
     model = ReferenceModel(ir)
     rng = np.random.default_rng(7)
-    hk = 2 * (v["kb"] + v["ki"] / v["t_free"]) / (MU0 * v["ms"])
+    hk = 2 * (v["kv"] + v["ki"] / v["t_free"]) / (MU0 * v["ms"])
     for _ in range(20):
         m = rng.normal(size=3)
         m /= np.linalg.norm(m)

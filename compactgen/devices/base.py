@@ -11,7 +11,7 @@ from compactgen.model.params import ParamSpec, ParamTable
 
 @dataclass(frozen=True)
 class Option:
-    """A non-numeric card setting of a device kind (``[model]`` table)."""
+    """A non-numeric card setting of a device kind (``[options]`` table)."""
 
     name: str
     choices: tuple[str, ...]

@@ -30,13 +30,13 @@ def free_layer_specs() -> list[ParamSpec]:
         ParamSpec("ki", "J/m^2", 1.3e-3, 0.0, 1e-2, "interface anisotropy energy density",
                   source="CoFeB/MgO ~1.0-1.3 mJ/m^2: S. Ikeda et al., Nat. Mater. 9, 721 (2010) (from memory)",
                   card_unit="mJ/m^2", required=True, group=g),
-        ParamSpec("kb", "J/m^3", 0.0, -1e7, 1e7, "bulk uniaxial anisotropy energy density (perpendicular > 0)",
+        ParamSpec("kv", "J/m^3", 0.0, -1e7, 1e7, "bulk uniaxial anisotropy energy density (perpendicular > 0)",
                   card_unit="J/m^3", group=g),
         ParamSpec("alpha", "1", 0.01, 1e-4, 1.0, "Gilbert damping",
                   source="CoFeB ~0.005-0.03 (from memory)", required=True, group=g),
         ParamSpec("demag_nz", "1", 1.0, 0.0, 1.0,
                   "axial demagnetising factor N_z (N_x = N_y = (1 - N_z)/2)",
-                  computed="from diameter and t_free by [model] demag, unless given",
+                  computed="from diameter and t_free by [options] demag, unless given",
                   source="cylinder: D.-X. Chen, J. A. Brug, R. B. Goldfarb, IEEE Trans. Magn. 27, 3601 (1991)",
                   group=g),
         ParamSpec("hx", "A/m", 0.0, -1e7, 1e7, "external field along x (in plane)", card_unit="mT", group="fields"),
@@ -200,7 +200,7 @@ def free_layer(parts: Parts, area):
     """
     P = parts.P
     ms_nom = P["ms"]
-    ku = parts.d("ku", anisotropy.uniaxial_energy_density(P["kb"], P["ki"], P["t_free"]))
+    ku = parts.d("ku", anisotropy.uniaxial_energy_density(P["kv"], P["ki"], P["t_free"]))
     hk = parts.d("hk", anisotropy.anisotropy_field(ku, ms_nom))
     nx = parts.d("demag_nx", (1 - P["demag_nz"]) / 2)
     hk_eff = parts.d("hk_eff", anisotropy.effective_anisotropy_field(hk, ms_nom, nx, P["demag_nz"]))

@@ -61,7 +61,7 @@ class DwMtj(DeviceKind):
     def param_specs(self) -> list[ParamSpec]:
         keep = {"t_free": "ferromagnet (track) thickness", "ms": "saturation magnetisation of the track",
                 "ki": "interface anisotropy energy density of the track",
-                "kb": "bulk uniaxial anisotropy energy density of the track (perpendicular > 0)",
+                "kv": "bulk uniaxial anisotropy energy density of the track (perpendicular > 0)",
                 "alpha": "Gilbert damping of the track", "hx": None, "hy": None,
                 "hz": "external field along z (perpendicular; +z grows the domain between w1 and the wall)",
                 "tnom": "temperature at which the card values hold", "t_curie": None, "aniso_exp": None,
@@ -118,7 +118,7 @@ class DwMtj(DeviceKind):
         apply_variation(parts, VARIED, P["mtj_length"] * P["track_width"])
         L, w = P["track_length"], P["track_width"]
         # perpendicular track, thin-film demagnetisation (N_z = 1)
-        ku = parts.d("ku", anisotropy.uniaxial_energy_density(P["kb"], P["ki"], P["t_free"]))
+        ku = parts.d("ku", anisotropy.uniaxial_energy_density(P["kv"], P["ki"], P["t_free"]))
         hk = parts.d("hk", anisotropy.anisotropy_field(ku, P["ms"]))
         hk_eff = parts.d("hk_eff", anisotropy.effective_anisotropy_field(hk, P["ms"], 0, 1))
         parts.constraints.append(Constraint(hk_eff, "the effective anisotropy field H_k,eff = {value} of the track "
@@ -198,7 +198,7 @@ class DwMtj(DeviceKind):
             Figure("h_dmi", h_d, "A/m", "DMI field D/(mu0 Ms Delta)",
                    "A. Thiaville et al., EPL 100, 57002 (2012)"),
             Figure("h_kwall", h_kw, "A/m", "wall shape-anisotropy field N_x Ms"),
-            Figure("phi0", phi0, "rad", "wall angle at rest"),
+            Figure("phi_wall_rest", phi0, "rad", "wall angle at rest"),
             Figure("v_dmi", domain_wall.dmi_saturation_velocity(P["dmi"], P["ms"]), "m/s",
                    "DMI saturation velocity (pi/2) gamma_e D/Ms", "A. Thiaville et al., EPL 100, 57002 (2012)"),
             Figure("j_half", domain_wall.half_saturation_current_density(P["alpha"], h_d, P["theta_sh"], P["ms"],

@@ -196,7 +196,7 @@ class ReferenceModel:
         return out
 
     def output(self, name, node_v, y):
-        """An output of the IR (``ir.outputs`` or the range output ``stress``) at terminal
+        """An output of the IR (``ir.outputs`` or the range output ``drive_ratio``) at terminal
         voltages ``node_v`` and states ``y`` (arrays broadcast, as in ``dc``)."""
         return self._outputs[name](*self._probes(node_v, y), *y)
 

@@ -1,13 +1,13 @@
 """`compactgen range-report RAWFILE [--lib NAME.lib]`: where did a model leave its calibrated range?
 
 Every generated model reports the largest ratio of its drive to the calibrated limits as the
-range output ``stress`` (ngspice: the node ``X1.stress``; Verilog-A: an output variable).  This
-command reads a SPICE3 raw file written by ngspice (``ngspice -b -r out.raw deck.cir``, or
+range output ``drive_ratio`` (ngspice: the node ``X1.drive_ratio``; Verilog-A: an output variable).
+This command reads a SPICE3 raw file written by ngspice (``ngspice -b -r out.raw deck.cir``, or
 ``write out.raw`` in a .control block) and lists, for every instance and every plot, each stretch
-of time (or sweep values) where ``stress`` exceeded 1.
+of time (or sweep values) where ``drive_ratio`` exceeded 1.
 
-Without ``--lib`` every vector named ``<instance>.stress`` (``v(x1.stress)``, ``v(xarr.x3.stress)``)
-is taken.  With ``--lib NAME.lib`` (a library written by `compactgen build`) only the instances
+Without ``--lib`` every vector named ``<instance>.drive_ratio`` (``v(x1.drive_ratio)``,
+``v(xarr.x3.drive_ratio)``) is taken.  With ``--lib NAME.lib`` (a library written by `compactgen build`) only the instances
 of that model are taken (those that carry every output node the library declares), the limits
 are printed, and each excursion shows the library's other outputs at its peak (which drive it was).
 

@@ -1,12 +1,14 @@
 """Device cards: TOML files with every physical value written with its unit.
 
     [device]            kind, name, description
-    [model]             non-numeric options of the device kind (e.g. demag = "cylinder")
+    [options]           non-numeric options of the device kind (e.g. demag = "cylinder")
     [parameters]        name = "value unit"   (units parsed with pint into SI)
     [uncertainty]       name = "value unit"   standard errors (written by `compactgen fit`)
     [provenance]        free-form table (written by `compactgen fit`)
 
-Every error names the file, the key, the value with its unit and what was expected.
+Every error names the file, the key, the value with its unit and what was expected.  A table or
+key renamed in this release is still read under its old name, with a RenamedInCard warning
+naming the new one (RENAMED_TABLES, RENAMED_KEYS, RENAMED_PREFIXES).
 """
 from __future__ import annotations
 
@@ -15,18 +17,28 @@ import difflib
 import hashlib
 import re
 import tomllib
+import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from compactgen.devices import get_kind, kinds
 from compactgen.devices.common import shared_defaults
-from compactgen.errors import CardError, InputError, RangeError, UnitError
+from compactgen.errors import CardError, InputError, RangeError, RenamedInCard, UnitError
 from compactgen.model.ir import ModelIR
 from compactgen.model.params import RESERVED, reserved_reason
 from compactgen.model.units import to_si
 
 _NAME = re.compile(r"^[a-z][a-z0-9_]{0,40}$")
-TOP_TABLES = ("device", "model", "parameters", "uncertainty", "provenance")
+TOP_TABLES = ("device", "options", "parameters", "uncertainty", "provenance")
+
+#: renamed in this release, old name accepted (with a RenamedInCard warning) in this release only:
+#: top-level tables, old -> (new, what it holds)
+RENAMED_TABLES = {"model": ("options", "non-numeric options of the device kind")}
+#: [parameters] and [uncertainty] keys, old -> (new, what it is)
+RENAMED_KEYS = {"kb": ("kv", "bulk anisotropy")}
+#: name prefixes of the process-variation parameters, old -> (new, what they are)
+RENAMED_PREFIXES = {"sg_": ("sigma_global_", "global sigma"), "sl_": ("sigma_mismatch_", "mismatch sigma"),
+                    "zg_": ("draw_global_", "global Monte Carlo draw"), "zl_": ("draw_mismatch_", "mismatch draw")}
 
 
 @dataclass
@@ -118,6 +130,7 @@ def parse_card(text: str, where: str = "<card>", path: Path | None = None) -> Ca
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise CardError(f"{where}: not valid TOML: {exc}") from None
+    doc = _renamed_tables(doc, where)
     _no_unknown(doc, TOP_TABLES, where, "top-level table")
     dev = doc.get("device")
     if not isinstance(dev, dict):
@@ -135,18 +148,19 @@ def parse_card(text: str, where: str = "<card>", path: Path | None = None) -> Ca
         raise CardError(f"{where}: [device] name = {name!r} is reserved: {reserved_reason(name)}; choose another "
                         "model name (it becomes the Verilog-A module, .subckt and VACASK model name)")
     options = {o.name: o.default for o in kind.options}
-    given_opts = doc.get("model", {})
-    _no_unknown(given_opts, tuple(options), where, "key in [model]")
+    given_opts = doc.get("options", {})
+    _no_unknown(given_opts, tuple(options), where, "key in [options]")
     for o in kind.options:
         if o.name in given_opts:
             v = given_opts[o.name]
             if v not in o.choices:
-                raise CardError(f"{where}: [model] {o.name} = {v!r}; expected one of {list(o.choices)}")
+                raise CardError(f"{where}: [options] {o.name} = {v!r}; expected one of {list(o.choices)}")
             options[o.name] = v
     table = kind.table()
     params = doc.get("parameters", {})
     if not isinstance(params, dict):
         raise CardError(f"{where}: [parameters] must be a table")
+    params = _renamed_keys(params, table.names(), where, "parameters")
     _no_unknown(params, tuple(table.names()), where, "parameter in [parameters]")
     values: dict[str, float] = {}
     for spec in table:
@@ -169,7 +183,7 @@ def parse_card(text: str, where: str = "<card>", path: Path | None = None) -> Ca
     given = frozenset(params)
     values = shared_defaults(table, kind.derive_defaults(values, options, given), given)
     uncertainty = {}
-    for k, v in doc.get("uncertainty", {}).items():
+    for k, v in _renamed_keys(doc.get("uncertainty", {}), table.names(), where, "uncertainty").items():
         if k not in table:
             raise CardError(f"{where}: [uncertainty] {k}: not a parameter of {kind.key}")
         uncertainty[k] = to_si(v, table[k].unit, where=f"{where}: [uncertainty] {k}", hint_unit=table[k].card_unit)
@@ -187,6 +201,53 @@ def parse_card(text: str, where: str = "<card>", path: Path | None = None) -> Ca
         raise RangeError(f"{where}: {exc}") from None
     card._keep_ir_once(ir)
     return card
+
+
+def _renamed_tables(doc: dict, where: str) -> dict:
+    """``doc`` with each renamed top-level table under its new name (a warning for each)."""
+    out = dict(doc)
+    for old, (new, what) in RENAMED_TABLES.items():
+        if old not in out:
+            continue
+        if new in out:
+            raise CardError(f"{where}: both [{old}] and [{new}] given; [{old}] is the old name of [{new}] "
+                            f"({what}): keep [{new}] only")
+        warnings.warn(f"card {where}: table [{old}] is renamed [{new}] ({what}); [{old}] is accepted in this "
+                      "release only", RenamedInCard, stacklevel=3)
+        out[new] = out.pop(old)
+    return out
+
+
+def _renamed_key(key: str, names) -> tuple[str, str] | None:
+    """(new name, what it is) when ``key`` is the old name of one of ``names``, else None."""
+    if key in RENAMED_KEYS and RENAMED_KEYS[key][0] in names:
+        return RENAMED_KEYS[key]
+    for old, (new, what) in RENAMED_PREFIXES.items():
+        if key.startswith(old) and new + key[len(old):] in names:
+            return new + key[len(old):], what
+    return None
+
+
+def _renamed_keys(table, names, where: str, section: str):
+    """``table`` with each renamed key under its new name (a warning for each); anything but a
+    table is returned as it is, for the caller's own error."""
+    if not isinstance(table, dict):
+        return table
+    names = set(names)
+    out = {}
+    for key, value in table.items():
+        hit = None if key in names else _renamed_key(key, names)
+        if hit is None:
+            out[key] = value
+            continue
+        new, what = hit
+        if new in table:
+            raise CardError(f"{where}: [{section}] both {key} and {new} given; {key} is the old name of {new} "
+                            f"({what}): keep {new} only")
+        warnings.warn(f"card {where}: key [{section}] {key} is renamed {new} ({what}); {key} is accepted in this "
+                      "release only", RenamedInCard, stacklevel=3)
+        out[new] = value
+    return out
 
 
 def _no_unknown(table: dict, allowed: tuple[str, ...], where: str, what: str) -> None:
@@ -212,7 +273,7 @@ def card_text(kind_key: str, name: str, values: dict[str, float] | None = None, 
               "[device]", f'kind = "{kind.key}"', f'name = "{name}"',
               f'description = "{description or kind.summary}"', ""]
     if kind.options:
-        lines.append("[model]")
+        lines.append("[options]")
         for o in kind.options:
             lines.append(f"# {o.desc}; one of {', '.join(o.choices)}")
             lines.append(f'{o.name} = "{opts[o.name]}"')

@@ -33,7 +33,7 @@ from compactgen.model.params import ParamSpec, ParamTable
 #: simulation time inside a model ($abstime in Verilog-A, time in ngspice); 0 in the operating point
 SIM_TIME = sp.Symbol("sim_time", nonnegative=True)
 #: name of the calibrated-range output every model with limits has (Verilog-A variable, ngspice node)
-RANGE_OUTPUT = "stress"
+RANGE_OUTPUT = "drive_ratio"
 RANGE_OUTPUT_DESC = "largest ratio of drive to its calibrated limit (above 1: outside the calibrated range)"
 
 

@@ -2,18 +2,19 @@
 
 One sigma definition for the whole tool:
 
-    p_eff = p * exp( sg_p * (dir_p * corner + zg_p) + sl_p * sqrt(area_ref / area) * zl_p )
+    p_eff = p * exp( sigma_global_p * (dir_p * corner + draw_global_p)
+                     + sigma_mismatch_p * sqrt(area_ref / area) * draw_mismatch_p )
 
-- ``sg_p`` is the relative one-standard-deviation spread of parameter p from lot to lot and
-  wafer to wafer (global variation); from a fit it is the standard error over the value
+- ``sigma_global_p`` is the relative one-standard-deviation spread of parameter p from lot to lot
+  and wafer to wafer (global variation); from a fit it is the standard error over the value
   (card [uncertainty]), otherwise the card's or the default value below.
 - ``corner`` is the process corner as a number of global sigmas: 0 typical (tt), +3 slow (ss),
   -3 fast (ff).  ``dir_p`` says which way "slow" moves p: larger RA, alpha and K_i (more
   current needed, less current at a given voltage), smaller TMR and eta.
-- ``zg_p`` (model level, one value per circuit) and ``zl_p`` (per instance) are standard-normal
-  draws for global Monte Carlo and local mismatch; ``sl_p`` is the relative mismatch sigma of a
-  device of area ``area_ref``, scaled with 1/sqrt(area) (Pelgrom area law: M. J. M. Pelgrom,
-  A. C. J. Duinmaijer and A. P. G. Welbers, IEEE J. Solid-State Circuits 24, 1433 (1989)).
+- ``draw_global_p`` (model level, one value per circuit) and ``draw_mismatch_p`` (per instance)
+  are standard-normal draws for global Monte Carlo and local mismatch; ``sigma_mismatch_p`` is the
+  relative mismatch sigma of a device of area ``area_ref``, scaled with 1/sqrt(area) (Pelgrom area
+  law: M. J. M. Pelgrom, A. C. J. Duinmaijer and A. P. G. Welbers, IEEE J. Solid-State Circuits 24, 1433 (1989)).
 - The multiplier is log-normal, so a parameter never changes sign.
 
 The default spreads are illustrative (no source): replace them with your foundry's data.
@@ -35,22 +36,23 @@ def variation_specs(varied) -> list[ParamSpec]:
     out = [
         ParamSpec("corner", "1", 0.0, -6.0, 6.0, "process corner in global sigmas: 0 tt, +3 ss (slow), -3 ff (fast)",
                   group=g),
-        ParamSpec("area_ref", "m^2", 1e-15, 1e-18, 1e-9, "device area at which the mismatch sigmas sl_* hold",
-                  card_unit="um^2", group=g),
+        ParamSpec("area_ref", "m^2", 1e-15, 1e-18, 1e-9,
+                  "device area at which the mismatch sigmas sigma_mismatch_* hold", card_unit="um^2", group=g),
     ]
-    for name, direction, sg, sl in varied:
+    for name, direction, sigma_global, sigma_mismatch in varied:
         way = "larger" if direction > 0 else "smaller"
         out += [
-            ParamSpec(f"sg_{name}", "1", sg, 0.0, 1.0,
+            ParamSpec(f"sigma_global_{name}", "1", sigma_global, 0.0, 1.0,
                       f"relative global (lot/wafer) sigma of {name}; the ss corner makes {name} {way}",
                       source="illustrative default, no source; from the fit's standard error when the card has one",
                       group=g),
-            ParamSpec(f"sl_{name}", "1", sl, 0.0, 1.0, f"relative mismatch sigma of {name} at area_ref",
+            ParamSpec(f"sigma_mismatch_{name}", "1", sigma_mismatch, 0.0, 1.0,
+                      f"relative mismatch sigma of {name} at area_ref",
                       source="illustrative default, no source", group=g),
-            ParamSpec(f"zg_{name}", "1", 0.0, -10.0, 10.0, f"global Monte Carlo draw of {name} (standard normal)",
-                      group=g),
-            ParamSpec(f"zl_{name}", "1", 0.0, -10.0, 10.0, f"local mismatch draw of {name} (standard normal)",
-                      kind="instance", group=g),
+            ParamSpec(f"draw_global_{name}", "1", 0.0, -10.0, 10.0,
+                      f"global Monte Carlo draw of {name} (standard normal)", group=g),
+            ParamSpec(f"draw_mismatch_{name}", "1", 0.0, -10.0, 10.0,
+                      f"local mismatch draw of {name} (standard normal)", kind="instance", group=g),
         ]
     return out
 
@@ -61,26 +63,27 @@ def apply_variation(parts, varied, area) -> dict[str, sp.Symbol]:
     P = parts.P
     mult = {}
     for name, direction, _, _ in varied:
-        exponent = (P[f"sg_{name}"] * (direction * P["corner"] + P[f"zg_{name}"])
-                    + P[f"sl_{name}"] * sp.sqrt(P["area_ref"] / area) * P[f"zl_{name}"])
+        exponent = (P[f"sigma_global_{name}"] * (direction * P["corner"] + P[f"draw_global_{name}"])
+                    + P[f"sigma_mismatch_{name}"] * sp.sqrt(P["area_ref"] / area) * P[f"draw_mismatch_{name}"])
         mult[name] = parts.d(f"vm_{name}", sp.exp(exponent), positive=True)
         P[name] = parts.d(f"{name}_v", P[name] * mult[name], positive=P[name].is_positive is True)
     return mult
 
 
 def sigmas_from_uncertainty(values: dict[str, float], uncertainty: dict[str, float], given) -> dict[str, float]:
-    """sg_p = standard error / |value| for every varied p the card's [uncertainty] names, unless
-    the card sets sg_p itself."""
+    """sigma_global_p = standard error / |value| for every varied p the card's [uncertainty] names,
+    unless the card sets sigma_global_p itself."""
     out = dict(values)
     for name, err in uncertainty.items():
-        key = f"sg_{name}"
+        key = f"sigma_global_{name}"
         if key in out and key not in given and values.get(name):
             out[key] = min(abs(err / values[name]), 1.0)
     return out
 
 
-#: name prefixes of the statistical draws: global (zg_, one value per circuit) and local (zl_, per instance)
-DRAW_PREFIXES = ("zg_", "zl_")
+#: name prefixes of the statistical draws: global (draw_global_, one value per circuit) and local
+#: (draw_mismatch_, per instance)
+DRAW_PREFIXES = ("draw_global_", "draw_mismatch_")
 
 
 def is_draw(name: str) -> bool:

@@ -7,7 +7,7 @@ from compactgen.physics.constants import mu0
 
 
 def uniaxial_energy_density(k_bulk, k_interface, t_free):
-    """K_u = K_b + K_i / t_F  [J/m^3] (interface anisotropy spread over the layer;
+    """K_u = K_v + K_i / t_F  [J/m^3] (interface anisotropy spread over the layer;
     common practice, no source)."""
     return k_bulk + k_interface / t_free
 

@@ -83,8 +83,10 @@ def _range(spec) -> str:
     return f"{'(' if spec.lo_open else '['}{b(spec.lo)}:{b(spec.hi)}{')' if spec.hi_open else ']'}"
 
 
-def _stress_expr(ir: ModelIR) -> sp.Expr:
-    return ir.range_output().expr
+def _range_output(ir: ModelIR, pr) -> dict:
+    """The range output (ir.RANGE_OUTPUT) for a template: name, unit, description, printed code."""
+    r = ir.range_output()
+    return dict(name=r.name, unit=r.unit, desc=r.desc.replace('"', "'"), code=pr.code(r.expr))
 
 
 #: unit in which an output's ngspice node reads (1 V = 1 unit), by the output's SI unit: values
@@ -102,7 +104,8 @@ def node_unit(si_unit: str) -> tuple[str, float]:
 
 
 def draw_params(ir: ModelIR) -> list:
-    """The statistical draws among the parameters (devices/variation.py): global zg_*, local zl_*."""
+    """The statistical draws among the parameters (model/variation.py): global draw_global_*,
+    local (mismatch) draw_mismatch_*."""
     from compactgen.model.variation import is_draw
 
     return [s for s in ir.params if is_draw(s.name)]
@@ -145,7 +148,7 @@ def verilog_a(ir: ModelIR) -> str:
         time_scale=str(ir.time_scale),
         branches=[dict(pos=b.pos, neg=b.neg, desc=b.desc, code=pr.code(b.current)) for b in ir.branches],
         outputs=[dict(name=o.name, desc=o.desc, unit=o.unit, code=pr.code(o.expr)) for o in ir.outputs],
-        stress=pr.code(_stress_expr(ir)),
+        range_output=_range_output(ir, pr),
     )
     return environment().get_template("verilog_a/model.va.j2").render(**ctx)
 
@@ -155,9 +158,9 @@ def _section_default(ir: ModelIR, spec) -> str:
     globals (corner, global draws, mismatch switch); every other one is its number."""
     if not _sections(ir):
         return format_number(spec.default)
-    if spec.name == "corner" or spec.name.startswith("zg_"):
+    if spec.name == "corner" or spec.name.startswith("draw_global_"):
         return f"{{{ir.name}_{spec.name}}}"
-    if spec.name.startswith("zl_"):
+    if spec.name.startswith("draw_mismatch_"):
         return f"{{{ir.name}_mismatch*agauss(0,1,1)}}"
     return format_number(spec.default)
 
@@ -165,25 +168,27 @@ def _section_default(ir: ModelIR, spec) -> str:
 def _sections(ir: ModelIR) -> list[dict]:
     """The .lib sections of a model with process variation (devices/variation.py): corners tt, ss,
     ff, and Monte Carlo on the typical mean with global and local variation switched separately.
-    A global draw is a brace-less ``.param x_draw=agauss(0,1,1)``, read through a second .param:
+    A global draw is a brace-less ``.param x_sample=agauss(0,1,1)``, read through a second .param:
     ngspice then evaluates it once per run; referenced directly from the subcircuit defaults it
     is re-drawn in every instance (measured, ngspice 39)."""
     if "corner" not in ir.params:
         return []
     from compactgen.model.variation import CORNERS
 
-    zg = [s.name for s in ir.params if s.name.startswith("zg_")]
+    global_draws = [s.name for s in ir.params if s.name.startswith("draw_global_")]
     out = []
     for name, z in CORNERS.items():
         out.append(dict(name=name, desc=f"corner {name}: every varied parameter at {z:+g} global sigma",
-                        globals=[("corner", format_number(z)), ("mismatch", "0.0")] + [(g, "0.0") for g in zg]))
+                        globals=[("corner", format_number(z)), ("mismatch", "0.0")]
+                        + [(g, "0.0") for g in global_draws]))
     for name, g_on, l_on in (("mc", 1, 1), ("mc_global", 1, 0), ("mc_local", 0, 1)):
         what = {"mc": "global and local (mismatch) variation", "mc_global": "global variation only",
                 "mc_local": "local (mismatch) variation only"}[name]
         out.append(dict(name=name, desc=f"Monte Carlo about the typical mean, {what}",
                         globals=[("corner", "0.0"), ("mismatch", f"{l_on:.1f}")]
-                        + [x for g in zg for x in ([(f"{g}_draw", "agauss(0,1,1)"),
-                                                        (g, f"{{{ir.name}_{g}_draw*1.0}}")] if g_on else [(g, "0.0")])]))
+                        + [x for g in global_draws for x in ([(f"{g}_sample", "agauss(0,1,1)"),
+                                                                  (g, f"{{{ir.name}_{g}_sample*1.0}}")]
+                                                                 if g_on else [(g, "0.0")])]))
     return out
 
 

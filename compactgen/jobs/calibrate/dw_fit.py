@@ -9,9 +9,9 @@ What wall-velocity files pin down (PHYSICS 6.3):
   theta_sh/alpha.  Alone, these curves cannot separate theta_sh from alpha (theta_sh is fitted,
   alpha fixed).
 - versus perpendicular field: below the Walker field v = gamma0 Delta H_z/alpha, so alpha
-  (with Delta from the card's ms, ki, kb, a_ex); above it the breakdown field adds dmi.
+  (with Delta from the card's ms, ki, kv, a_ex); above it the breakdown field adds dmi.
 Default free parameters: dmi and theta_sh; alpha as well when a file has field-driven points.
-Never fitted by default: ms, t_free, ki, kb, a_ex (the velocities fix the wall width and the DMI
+Never fitted by default: ms, t_free, ki, kv, a_ex (the velocities fix the wall width and the DMI
 field only in combination with them: measure them separately), xi_sot, the in-plane fields, the
 geometry, the read-out, h_dep and pin_pitch (pinning is off in the flow regime), the limits.
 """
@@ -44,7 +44,7 @@ def default_free(datasets: list[Dataset]) -> tuple[list[str], list[str]]:
     if not field:
         notes.append("alpha fixed: without field-driven velocities the current sweeps fix only theta_sh/alpha "
                      "(theta_sh is fitted)")
-    notes.append("ms, ki, kb, a_ex, t_free fixed: the velocities fix the wall width and the DMI field only together "
+    notes.append("ms, ki, kv, a_ex, t_free fixed: the velocities fix the wall width and the DMI field only together "
                  "with them; measure them separately")
     notes.append("xi_sot fixed: the field-like torque hardly changes the steady speed of a Neel wall")
     notes.append("h_dep and pin_pitch fixed: the velocity model is the flow regime (pinning off)")
@@ -57,7 +57,7 @@ def fit_dw_card(card, datasets: list[Dataset], free: list[str] | None = None, fi
     specs = {s.name: s for s in card.device.table()}
     # the data describe typical devices: the model is evaluated at the typical process point (corner 0,
     # no Monte Carlo draws; devices/variation.py); the card keeps its own corner and draws
-    process = {n: 0.0 for n in card.values if n == "corner" or n.startswith(("zg_", "zl_"))}
+    process = {n: 0.0 for n in card.values if n == "corner" or n.startswith(("draw_global_", "draw_mismatch_"))}
     start = dict(card.values, **process)
     auto, keep_notes = default_free(datasets)
     chosen = list(auto) if free is None else list(free)

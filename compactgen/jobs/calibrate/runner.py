@@ -12,7 +12,7 @@ What each measurement type pins down on an stt-mtj card (``DEFAULT_FREE`` below)
 Rules applied when the user does not choose: ms, attempt_time and activation_exponent are
 free only with thermally activated switching data; alpha only with precessional switching
 data (otherwise I_c0 fixes only alpha/eta and eta is fitted); offset_field only with loops.
-Never fitted: diameter (taken from the data files, which must agree), t_free, kb, the
+Never fitted: diameter (taken from the data files, which must agree), t_free, kv, the
 demagnetising factor (recomputed from the diameter), fields, limits; tnom becomes the data
 temperature (the model has no temperature dependence of Ms, K, TMR: one temperature per fit).
 

@@ -260,10 +260,11 @@ def stimulus_record(bench) -> dict:
 
 
 def interface_record(ir) -> dict:
-    """What a designer's netlist depends on: names, port order, parameters, library sections
-    (process corners), conventions."""
+    """What a designer's netlist depends on: names, port order, parameters, outputs and the range
+    output (probes and .meas read them by name), library sections (process corners), conventions."""
     from compactgen.targets.render import _sections
 
+    r = ir.range_output()
     return {
         "module": ir.name,
         "kind": ir.kind,
@@ -271,6 +272,7 @@ def interface_record(ir) -> dict:
         "port_meaning": {t.name: t.desc for t in ir.terminals},
         "parameters": [{"name": s.name, "unit": s.unit, "kind": s.kind, "default": s.default} for s in ir.params],
         "outputs": [{"name": o.name, "unit": o.unit} for o in ir.outputs],
+        "range_output": {"name": r.name, "unit": r.unit, "description": r.desc} if r is not None else None,
         "lib_sections": [s["name"] for s in _sections(ir)],
         "conventions": list(ir.conventions),
     }

@@ -385,6 +385,15 @@ def compare_interface(old: dict, new: dict) -> list[InterfaceChange]:
     for n in ob:
         if n not in oa:
             out.append(InterfaceChange(f"output {n}", "—", f"added [{ob[n]['unit']}]", False))
+    ra, rb = old.get("range_output"), new.get("range_output")  # absent in bundles made before it was recorded
+    if ra and not rb:
+        out.append(InterfaceChange(f"range output {ra['name']}", f"[{ra['unit']}]", "removed", True,
+                                   "probes, .meas and range-report of it fail"))
+    elif ra and rb and (ra["name"], ra["unit"]) != (rb["name"], rb["unit"]):
+        out.append(InterfaceChange("range output", f"{ra['name']} [{ra['unit']}]", f"{rb['name']} [{rb['unit']}]",
+                                   True, "probes and .meas that name it must change"))
+    elif rb and "range_output" in old and not ra:
+        out.append(InterfaceChange(f"range output {rb['name']}", "—", f"added [{rb['unit']}]", False))
     sa, sb = old.get("lib_sections", []), new.get("lib_sections", [])
     for n in sa:
         if n not in sb:
