@@ -144,3 +144,29 @@ def test_build_into_a_file_is_bad_input(tmp_path):
     target.write_text("a file, not a folder")
     code, err = run("build", str(EXAMPLES / "pmtj35_demo.toml"), "-o", str(target))
     assert code == 2 and "exists and is not a folder" in err and target.read_text() == "a file, not a folder"
+
+
+@pytest.mark.parametrize("argv", [
+    ["build", "{missing}.toml", "-o", "{tmp}/b"],
+    ["verify", "{missing}.toml"],
+    ["verify", "{example}", "--sim", "nonesuch"],
+    ["release", "{example}", "not-a-version", "-o", "{tmp}/r"],
+    ["range-report", "{missing}.raw"],
+    ["fit", "{example}", "{missing}.csv", "-o", "{tmp}/f.toml"],
+    ["compare", "{missing}", "{missing}2"],
+    ["check-release", "{missing}"],
+    ["init", "no-such-kind", "-o", "{tmp}/i.toml"],
+])
+def test_bad_input_exits_2_in_every_command(argv, tmp_path, capsys):
+    """Bad input (a missing file, an unknown simulator or kind, a malformed version) is exit 2 in every
+    command, with a message naming what was wrong; exit 1 is kept for a check that ran and failed."""
+    fill = {"missing": str(tmp_path / "nothere"), "tmp": str(tmp_path), "example": str(EXAMPLES / "pmtj35_demo.toml")}
+    args = [a.format(**fill) for a in argv]
+    try:
+        status = main(args)
+    except SystemExit as exc:  # argparse's own refusals
+        status = exc.code
+    assert status == 2, (args, capsys.readouterr())
+    err = capsys.readouterr().err
+    assert "error" in err and ("nothere" in err or "nonesuch" in err or "not-a-version" in err
+                               or "no-such-kind" in err), err

@@ -3,6 +3,7 @@ lines safe in every library section, every node listed with its scale, condition
 figure, the options the decks use."""
 from __future__ import annotations
 
+import json
 import re
 
 import numpy as np
@@ -142,3 +143,51 @@ def test_range_output_drive_ratio_is_listed_among_the_outputs_with_unit_and_desc
     for text in files.values():
         if isinstance(text, str):
             assert not re.search(r"\bstress\b", text)
+
+
+@pytest.fixture(scope="module", params=["pmtj35_demo", "sot50_demo", "dwtrack_demo"])
+def built_kind(request):
+    card = example_card(request.param)
+    return card, card.ir(), build_files(card)
+
+
+def test_every_file_quotes_one_equations_digest_taken_before_lowering(built_kind):
+    """The .va is printed from the hoisted IR, the .lib from the B-source form: both quote the digest
+    of the IR as the device kind built it, as the datasheet and the manifest do."""
+    card, ir, files = built_kind
+    want = render.digests(ir)
+    assert want["digest"] == ir.digest()
+    found = {}
+    for name, text in files.items():
+        if isinstance(text, bytes) or not name.endswith((".va", ".lib", ".md")):
+            continue
+        found[name] = set(re.findall(r"equations digest\s+`?([0-9a-f]{16})", text))
+    assert set(found) == {f"{ir.name}.va", f"{ir.name}.lib", f"{ir.name}.osdi.lib", f"{ir.name}.md"}
+    assert all(v == {want["digest"]} for v in found.values()), found
+    manifest = json.loads(files["manifest.json"])
+    assert (manifest["model_digest"], manifest["parameter_digest"]) == (want["digest"], want["param_digest"])
+
+
+def test_each_section_once_and_corners_for_every_kind_with_variation(built_kind):
+    card, ir, files = built_kind
+    md = files[f"{ir.name}.md"]
+    heads = re.findall(r"^## (.+)$", md, flags=re.M)
+    assert len(heads) == len(set(heads)), heads
+    assert md.count("Parameter-only quantities:") == 1
+    assert any(s.name.startswith("draw_mismatch_") for s in ir.params)
+    corners = _section(md, "Corners and Monte Carlo")
+    assert "`mc_global`" in corners and "`mc_local`" in corners and "draw_mismatch_" in corners
+
+
+def test_sources_cite_publications_not_notes_that_do_not_ship(built_kind):
+    """Sources name published work (or say 'common practice, no source'); a value from memory says
+    which value it is; no pointer into design notes that are not part of the project."""
+    card, ir, files = built_kind
+    for name, text in files.items():
+        if isinstance(text, str):
+            assert "PHYSICS" not in text, name
+    md = files[f"{ir.name}.md"]
+    assert "(from memory)" not in md
+    for m in re.finditer(r"from memory", md):
+        before = md[max(0, m.start() - 60):m.start()]
+        assert re.search(r"(range|value|values|reference|page|signs|T_c|n ~|[0-9])[^|]*$", before), before

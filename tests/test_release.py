@@ -156,6 +156,25 @@ def test_interface_breaks_are_flagged_and_additions_are_not():
     assert changes["range output"].breaking and changes["range output"].new == "stress [1]"
 
 
+def test_renames_compactgen_made_are_named_as_such_not_guessed():
+    """A bundle from before the renames (kb, sg_/sl_/zg_/zl_) against one after: every removed
+    parameter is matched with its documented new name (difflib alone took sl_ra for sigma_global_ra)."""
+    new = json.loads(json.dumps(interface_record(load_card(EXAMPLE).ir())))
+    old = copy.deepcopy(new)
+    back = {"kv": "kb", "sigma_global_": "sg_", "sigma_mismatch_": "sl_", "draw_global_": "zg_", "draw_mismatch_": "zl_"}
+    for prm in old["parameters"]:
+        for now, before in back.items():
+            if prm["name"] == now or (now.endswith("_") and prm["name"].startswith(now)):
+                prm["name"] = before + prm["name"][len(now):] if now.endswith("_") else before
+    changes = {c.item: c for c in compare_interface(old, new)}
+    removed = {k: c for k, c in changes.items() if c.new.startswith("removed")}
+    added = {k: c for k, c in changes.items() if c.new.startswith("added")}
+    assert len(removed) == len(added) >= 5 and len(removed) + len(added) == len(changes)
+    assert all(c.breaking and "renamed to" in c.note and "by compactgen" in c.note for c in removed.values())
+    assert "'sigma_mismatch_ra'" in changes["parameter sl_ra"].note and "by compactgen" in changes["parameter sl_ra"].note
+    assert "'kv'" in changes["parameter kb"].note
+
+
 def test_interface_record_names_the_range_output_with_unit_and_description():
     ir = load_card(EXAMPLE).ir()
     rec = interface_record(ir)

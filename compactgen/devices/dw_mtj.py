@@ -76,7 +76,7 @@ class DwMtj(DeviceKind):
             ParamSpec("track_width", "m", 50 * NM, 5 * NM, 100e-6, "track (and junction) width", card_unit="nm",
                       required=True, group=g),
             ParamSpec("a_ex", "J/m", 15e-12, 1e-13, 1e-10, "exchange stiffness of the ferromagnet",
-                      source="Co-based films 10-20 pJ/m (from memory)", card_unit="pJ/m", group=g),
+                      source="Co-based films 10-20 pJ/m: from memory, no source", card_unit="pJ/m", group=g),
             ParamSpec("dmi", "J/m^2", 1e-3, -1e-2, 1e-2,
                       "interfacial DMI constant D (energy density D (m_z dm_x/dx - m_x dm_z/dx); D > 0: "
                       "left-handed Neel walls, phi = pi for an up -> down wall, as in Pt/Co-type stacks with Pt below)",
@@ -210,7 +210,7 @@ class DwMtj(DeviceKind):
             Figure("h_walker", domain_wall.walker_field(P["alpha"], h_kw, h_d, P["hx"]), "A/m",
                    "Walker field of this model: the largest |hz| with a steady wall (DMI, wall anisotropy and hx "
                    "included, hy = 0, no current); exact maximum of the 1D restoring torque",
-                   "A. Thiaville et al., EPL 100, 57002 (2012) for the model; closed form derived (PHYSICS 6.3)"),
+                   "A. Thiaville et al., EPL 100, 57002 (2012) for the model; the exact maximum derived here from it"),
             Figure("h_walker_dmi_limit", domain_wall.walker_field_dmi_limit(P["alpha"], h_d), "A/m",
                    "comparison only: large-DMI approximation (pi/2) alpha H_D (H_K and hx neglected)",
                    "A. Thiaville et al., EPL 100, 57002 (2012)"),
@@ -221,7 +221,7 @@ class DwMtj(DeviceKind):
             Figure("tau_wall", _rest_relaxation_time(P["alpha"], h_kw, h_d, P["hx"], phi0), "s",
                    "wall-angle relaxation time at rest (1 + alpha^2)/(alpha gamma0 |b'(phi0)|): H_K, H_D and hx, "
                    "hy = 0, no current; the benches' settling times follow from it and its driven counterparts",
-                   "linearised 1D model (PHYSICS 6.2, derived); A. Thiaville et al., EPL 100, 57002 (2012)"),
+                   "A. Thiaville et al., EPL 100, 57002 (2012) for the 1D model; its linearisation derived here"),
         ]
         ir = ModelIR(
             name=name, kind=self.key, title=self.title,
@@ -272,7 +272,7 @@ def _rest_relaxation_time(alpha, h_k, h_d, h_x, phi0):
 # run -- a drive beyond the calibrated limits, a track too short, more than POINT_BUDGET time steps,
 # no pinning site under the junction -- comes back not applicable with the measured reason.
 WHY_SLICES = WHY_DC + ("; every run must match the junction conductance integrated slice by slice over the wall "
-                       "profile by quadrature (PHYSICS 6.5) to 1e-6")
+                       "profile by quadrature to 1e-6")
 WHY_V = ("wall speed from the slope of q(t) over a window after the wall angle has settled; trapezoidal steps of at "
          "most 1/100 of the wall's fastest time constant keep the position error far below 0.2 % of the distance "
          "travelled")

@@ -102,7 +102,7 @@ class SotMtj(DeviceKind):
             Figure("hk_eff", fl["hk_eff_t"], "A/m", "effective anisotropy field"),
             Figure("delta", fl["delta_nom"], "1", "thermal stability factor E_b/(k_B tnom)"),
             Figure("j_c_sot", j_c, "A/m^2", "quasi-static SOT threshold (exact torque balance, field-like torque "
-                   "neglected)", "PHYSICS 5, derived; K.-S. Lee et al., Appl. Phys. Lett. 102, 112410 (2013)"),
+                   "neglected)", "K.-S. Lee et al., Appl. Phys. Lett. 102, 112410 (2013); the exact torque balance derived here from the model"),
             Figure("i_c_sot", j_c * P["line_width"] * P["t_hm"], "A", "write-line current at the threshold"),
             Figure("tau_prec", switching.precession_time_scale(P["alpha"], fl["hk_eff_t"]), "s",
                    "relaxation (precessional) time scale (1+alpha^2)/(alpha gamma0 H_k,eff)"),

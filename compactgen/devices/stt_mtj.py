@@ -49,7 +49,7 @@ class SttMtj(DeviceKind):
             ParamSpec("eta", "1", 0.6, 0.01, 2.0, "spin-torque efficiency (constant, angle-independent)",
                       source="J. C. Slonczewski, J. Magn. Magn. Mater. 159, L1 (1996)", group="spin-transfer torque"),
             ParamSpec("xi_fl", "1", 0.0, -2.0, 2.0, "field-like to damping-like torque ratio",
-                      source="|xi| <~ 0.3 typical for MgO MTJs (from memory)", group="spin-transfer torque"),
+                      source="|xi| <~ 0.3 typical for MgO junctions: from memory, no source", group="spin-transfer torque"),
         ]
         # the starter's limit covers its own benches: 3 x I_c0 at -40 degC, after the junction has
         # switched to the parallel state (voltage drive: the current rises with the conductance)
@@ -92,7 +92,7 @@ class SttMtj(DeviceKind):
                    "precessional time scale (1+alpha^2)/(alpha gamma0 H_k,eff)"),
             Figure("retention", thermal.neel_brown_time(1e-9, fl["delta_t"]), "s",
                    "Neel-Brown retention time tau0 exp(Delta) with the conventional tau0 = 1 ns",
-                   "L. Neel, Ann. Geophys. 5, 99 (1949) (from memory); W. F. Brown, Phys. Rev. 130, 1677 (1963)"),
+                   "L. Neel, Ann. Geophys. 5, 99 (1949) (volume and page from memory); W. F. Brown, Phys. Rev. 130, 1677 (1963)"),
             Figure("dwell_brown", 2 * thermal.brown_relaxation_time(P["alpha"], fl["hk_eff_t"], fl["delta_t"]), "s",
                    "mean dwell time in one state, 2 tau_N with Brown's attempt time (high-barrier limit)",
                    "W. F. Brown, Phys. Rev. 130, 1677 (1963)"),

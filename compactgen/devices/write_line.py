@@ -23,7 +23,7 @@ def heavy_metal_specs() -> list[ParamSpec]:
     return [
         ParamSpec("rho_hm", "ohm*m", 200 * UOHM_CM, 1 * UOHM_CM, 1e4 * UOHM_CM,
                   "resistivity of the heavy-metal line (include the ferromagnet's shunt if it matters)",
-                  source="beta-W ~200-260, beta-Ta ~190, Pt ~20-40 uohm cm (from memory)",
+                  source="beta-W ~200-260, beta-Ta ~190, Pt ~20-40 uohm cm: values from memory, no source",
                   card_unit="uohm*cm", required=True, group=g),
         ParamSpec("t_hm", "m", 5 * NM, 0.5 * NM, 100 * NM, "heavy-metal line thickness", card_unit="nm",
                   required=True, group=g),
@@ -33,11 +33,11 @@ def heavy_metal_specs() -> list[ParamSpec]:
                   "with the metal on top",
                   source="Pt ~+0.06-0.1: L. Liu et al., PRL 106, 036601 (2011); beta-Ta ~-0.12..-0.15: L. Liu et al., "
                          "Science 336, 555 (2012); beta-W ~-0.3: C.-F. Pai et al., APL 101, 122404 (2012) "
-                         "(signs and journal references from memory)",
+                         "(the values, signs and journal references are from memory)",
                   required=True, group=g),
         ParamSpec("xi_sot", "1", 0.0, -5.0, 5.0,
                   "field-like to damping-like ratio of the spin-orbit torque (the field-like field xi_sot H_SH points along sigma)",
-                  source="stack dependent, ~0 up to >1 in Ta/CoFeB (from memory)", group=g),
+                  source="stack dependent; ~0 up to >1 in Ta/CoFeB: from memory, no source", group=g),
     ]
 
 
@@ -77,7 +77,7 @@ LINE_PORT_LABEL = "V(w1)/I(w1) [ohm]\n(w1-mid + (mid-w2 || junction))"
 
 WHY_DC = ("DC operating point with an internal node: only the Newton tolerance (reltol 1e-6) and 17-digit "
           "parameter printing separate the simulators from the reference; 0.1 % bounds both with margin")
-WHY_RLINE = WHY_DC + "; every run must give rho L/(w t) (PHYSICS 10) to 1e-6"
+WHY_RLINE = WHY_DC + "; every run must give the line resistance rho L/(w t) to 1e-6"
 
 
 def line_resistance_bench(r_line: float, v_lim: float = 0.5):

@@ -72,14 +72,15 @@ def build_files(card: Card, compiled: bool = True) -> dict[str, str | bytes]:
         data, osdi_entry = compiled_model(ir.name, files[f"{ir.name}.va"])
         if data is not None:
             files[render.osdi_file(ir)] = data
+    dig = render.digests(ir)
     manifest = {
         "format": BUILD_FORMAT,
         "generator": f"compactgen {__version__}",
         "kind": ir.kind,
         "name": ir.name,
         "card_sha256": card.sha256(),
-        "model_digest": ir.digest(),
-        "parameter_digest": render.param_digest(ir),
+        "model_digest": dig["digest"],
+        "parameter_digest": dig["param_digest"],
         "figures": {k: _manifest_figure(v) for k, v in figs.items()},
         "files": {k: hashlib.sha256(v if isinstance(v, bytes) else v.encode()).hexdigest()
                   for k, v in sorted(files.items())},

@@ -41,6 +41,16 @@ RENAMED_PREFIXES = {"sg_": ("sigma_global_", "global sigma"), "sl_": ("sigma_mis
                     "zg_": ("draw_global_", "global Monte Carlo draw"), "zl_": ("draw_mismatch_", "mismatch draw")}
 
 
+def renamed_to(old: str) -> str | None:
+    """The name a parameter renamed in this release has now (RENAMED_KEYS, RENAMED_PREFIXES), or None."""
+    if old in RENAMED_KEYS:
+        return RENAMED_KEYS[old][0]
+    for prefix, (new, _) in RENAMED_PREFIXES.items():
+        if old.startswith(prefix):
+            return new + old[len(prefix):]
+    return None
+
+
 @dataclass
 class Card:
     kind: str

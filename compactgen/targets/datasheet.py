@@ -68,8 +68,7 @@ def datasheet(card: Card, ir: ModelIR, figs: dict[str, float], ngspice_ctx: dict
     draws = [s.name for s in ir.params if is_draw(s.name)]
     inst = [s for s in ir.params if s.kind == "instance" and not is_draw(s.name)]
     ctx = dict(
-        name=ir.name, title=ir.title, kind=ir.kind, version=__version__, digest=ir.digest(),
-        param_digest=render.param_digest(ir), description=card.description,
+        name=ir.name, title=ir.title, kind=ir.kind, version=__version__, **render.digests(ir), description=card.description,
         calibrated=calibrated, terminals=ir.terminals, conventions=ir.conventions,
         instance_line=render.usage_instance(ir),
         vacask_instance=" ".join(f"{s.name}={format_number(s.default)}" for s in inst),

@@ -121,23 +121,29 @@ def _evaluate_at(expr, numbers: dict) -> float:
     return float(sp.sympify(sp.sympify(expr).xreplace(numbers)).evalf())
 
 
+def digests(ir: ModelIR) -> dict[str, str]:
+    """The model's two digests, taken here only, from the IR as the device kind built it (before
+    any lowering): every generated file (.va, both .lib files, datasheet, manifest) quotes these."""
+    return dict(digest=ir.digest(), param_digest=param_digest(ir))
+
+
 def _common(ir: ModelIR) -> dict:
+    """Context shared by the templates; ``ir`` must be the IR as built, not a lowered form."""
     return dict(
-        name=ir.name, title=ir.title, kind=ir.kind, version=__version__, digest=ir.digest(),
-        param_digest=param_digest(ir), conventions=ir.conventions,
+        name=ir.name, title=ir.title, kind=ir.kind, version=__version__, **digests(ir), conventions=ir.conventions,
         ports=[t.name for t in ir.terminals],
         nodes=[n.name for n in ir.nodes],
     )
 
 
 def verilog_a(ir: ModelIR) -> str:
+    ctx = _common(ir)  # before hoisting: the digests are the built IR's, as in every other file
     ir = hoisted(ir)
     smap = {str(k): f"V({p},{n})" if n != "0" else f"V({p})" for k, (p, n) in ir.voltages.items()}
     smap.update({s.name: f"V({s.name})" for s in ir.states})
     smap[str(ir.temperature)] = "$temperature"
     smap[str(SIM_TIME)] = "$abstime"
     pr = VerilogAPrinter(smap)
-    ctx = _common(ir)
     ctx.update(
         params=[dict(name=s.name, unit=s.unit, desc=s.desc.replace('"', "'"), instance=s.kind == "instance",
                      default=format_number(s.default), range=_range(s)) for s in ir.params],

@@ -38,7 +38,7 @@ from compactgen.jobs.calibrate.fit import Block
 NUISANCE_SPECS: dict[str, ParamSpec] = {
     "attempt_time": ParamSpec(
         "attempt_time", "s", 1e-9, 1e-13, 1e-5, "attempt time tau0 of thermally activated switching",
-        source="tau0 ~ 1 ns by convention; Brown's prefactor gives ~0.1 ns (PHYSICS 4.3)", card_unit="ns"),
+        source="tau0 ~ 1 ns by convention (common practice, no source); Brown's prefactor gives ~0.1 ns: W. F. Brown, Phys. Rev. 130, 1677 (1963)", card_unit="ns"),
     "activation_exponent": ParamSpec(
         "activation_exponent", "1", 2.0, 0.5, 4.0, "exponent n of tau = tau0 exp[Delta (1 - I/I_c0)^n]",
         source="n = 1: R. H. Koch, J. A. Katine, J. Z. Sun, PRL 92, 088302 (2004); n = 2: T. Taniguchi, "

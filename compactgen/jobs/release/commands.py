@@ -211,6 +211,10 @@ def cmd_check_release(args) -> int:
                              "`compactgen release`)")
     if (digest or args.against) and len(args.bundles) != 1:
         raise InputError(f"--digest and --against check one bundle; {len(args.bundles)} given")
+    missing = [str(d) for d in args.bundles if not Path(d).is_dir()]
+    if missing:  # bad input (exit 2); a folder that is there but damaged fails the check (exit 1)
+        raise InputError(f"{', '.join(missing)}: no such release folder; expected a bundle folder written by "
+                         "`compactgen release`")
     bad = 0
     for d in args.bundles:
         try:

@@ -350,10 +350,18 @@ def compare_interface(old: dict, new: dict) -> list[InterfaceChange]:
     pb = {p["name"]: p for p in new["parameters"]}
     removed = [n for n in pa if n not in pb]
     added = [n for n in pb if n not in pa]
+    from compactgen.model.card import renamed_to
+
     for n in removed:
         same_shape = [m for m in added if pb[m]["unit"] == pa[n]["unit"] and pb[m]["kind"] == pa[n]["kind"]]
-        guess = difflib.get_close_matches(n, same_shape, n=1, cutoff=0.0) if same_shape else []
-        note = f"renamed to {guess[0]!r}?" if guess else "netlists that set it fail to load"
+        known = renamed_to(n)
+        if known in same_shape:  # a rename compactgen made on purpose (cards still read the old name)
+            guess = [known]
+            note = (f"renamed to {known!r} by compactgen (cards may still use {n!r} in this release; "
+                    "netlists must use the new name)")
+        else:
+            guess = difflib.get_close_matches(n, same_shape, n=1, cutoff=0.0) if same_shape else []
+            note = f"renamed to {guess[0]!r}?" if guess else "netlists that set it fail to load"
         out.append(InterfaceChange(f"parameter {n}", f"{pa[n]['kind']} [{pa[n]['unit']}]",
                                    "removed" + (f" (new {guess[0]!r} [{pb[guess[0]]['unit']}])" if guess else ""),
                                    True, note))
