@@ -102,7 +102,7 @@ def _extensions():
     """Subcommands that live with their feature (fit, release, ...): each module may define
     ``add_commands(subparsers)``."""
     out = []
-    for mod in ("compactgen.jobs.calibrate.commands", "compactgen.jobs.release",
+    for mod in ("compactgen.jobs.calibrate.commands", "compactgen.jobs.wafer.commands", "compactgen.jobs.release",
                 "compactgen.jobs.sample_cards", "compactgen.jobs.range_report"):
         try:
             m = __import__(mod, fromlist=["add_commands"])

@@ -126,7 +126,48 @@ def _choice(text: str, choices: tuple[str, ...]) -> str | None:
 
 def read_dataset(path: str | Path, kind: str | None = None) -> Dataset:
     """Read and check one data file; ``kind`` forces the measurement type."""
-    path = Path(path)
+    parsed = _parse_file(Path(path), kind)
+    return _dataset(parsed, parsed["rows"], parsed["row_lines"], {})
+
+
+def read_device_datasets(path: str | Path, column: str = "device", add_meta=None) -> list[tuple[str, Dataset]]:
+    """One file holding several devices, each row tagged with its device id in ``column`` (a text
+    column, as many rows per device as a file of one device would hold), or one device named by
+    ``# device: ID``: a (device id, Dataset) pair per device, in the order of first appearance,
+    each checked on its own.  ``add_meta(device_id, meta, meta_line, where)`` (the file's metadata,
+    their line numbers, and where the device is named: file, line, column or metadata key)
+    returns metadata {key: text} that replaces or completes the file's (e.g.
+    the diameter from a device table; it may check the file's own first).  A file that names no
+    device is a DataError."""
+    parsed = _parse_file(Path(path), None)
+    names = parsed["names"]
+    key = _norm(column)
+    groups: dict[str, tuple[list, list]] = {}
+    if key in names:
+        k = names.index(key)
+        for cells, line in zip(parsed["rows"], parsed["row_lines"]):
+            dev = cells[k]
+            if not dev:
+                raise DataError(f"{parsed['path']}, line {line}, column '{key}': empty device id")
+            rows, lines = groups.setdefault(dev, ([], []))
+            rows.append(cells)
+            lines.append(line)
+    elif "device" in parsed["meta"]:
+        groups[parsed["meta"]["device"].strip()] = (parsed["rows"], parsed["row_lines"])
+    else:
+        raise DataError(f"{parsed['path']}: names no device: add a column '{key}' with each row's device id, "
+                        "or a line '# device: ID' above the header")
+    out = []
+    for dev, (rows, lines) in groups.items():
+        where = (f"{parsed['path']}, line {lines[0]}, column '{key}'" if key in names
+                 else f"{parsed['path']}, line {parsed['meta_line']['device']}, metadata 'device'")
+        extra = add_meta(dev, dict(parsed["meta"]), dict(parsed["meta_line"]), where) if add_meta else {}
+        out.append((dev, _dataset(parsed, rows, lines, {**extra, "device": dev})))
+    return out
+
+
+def _parse_file(path: Path, kind: str | None) -> dict:
+    """Header, metadata, schema, column units and raw rows of a data file (nothing converted)."""
     if not path.is_file():
         raise DataError(f"{path}: no such data file")
     raw = path.read_bytes()
@@ -203,13 +244,24 @@ def read_dataset(path: str | Path, kind: str | None = None) -> Dataset:
         row_lines.append(i)
     if not rows:
         raise DataError(f"{path}: no data rows after the header (line {header_at})")
+    return dict(path=path, schema=schema, meta=meta, meta_line=meta_line, names=names, units=units, used=used,
+                ignored=ignored, specs=specs, maps=maps, rows=rows, row_lines=row_lines, header_at=header_at,
+                sha256=hashlib.sha256(raw).hexdigest())
+
+
+def _dataset(parsed: dict, rows: list[list[str]], row_lines: list[int], extra_meta: dict[str, str]) -> Dataset:
+    """A checked Dataset from some rows of a parsed file; ``extra_meta`` (added or replacing the
+    file's) is attributed to the header line."""
+    path, names, units, used, specs, maps = (parsed[k] for k in ("path", "names", "units", "used", "specs", "maps"))
+    meta = {**parsed["meta"], **extra_meta}
+    meta_line = {**parsed["meta_line"], **{k: parsed["header_at"] for k in extra_meta}}
     columns: dict[str, np.ndarray] = {}
     for n in used:
         k = names.index(n)
         cells = [r[k] for r in rows]
         columns[n] = _column_values(path, row_lines, n, cells, specs[n], maps[n])
-    ds = Dataset(path, schema, meta, meta_line, columns, {n: units[names.index(n)] for n in used},
-                 np.asarray(row_lines), hashlib.sha256(raw).hexdigest(), ignored)
+    ds = Dataset(path, parsed["schema"], meta, meta_line, columns, {n: units[names.index(n)] for n in used},
+                 np.asarray(row_lines), parsed["sha256"], parsed["ignored"])
     _check_rows(ds)
     _check_meta(ds)
     return ds
@@ -401,4 +453,4 @@ def read_all(paths) -> list[Dataset]:
     return [read_dataset(p) for p in paths]
 
 
-__all__ = ["Dataset", "read_dataset", "read_all"]
+__all__ = ["Dataset", "read_dataset", "read_device_datasets", "read_all"]
