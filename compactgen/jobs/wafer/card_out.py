@@ -114,6 +114,7 @@ def write_card(text: str, out: Path, force: bool, inputs: list[Path]) -> Path:
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as f:
             f.write(text)
+        os.chmod(tmp, 0o644)  # mkstemp makes 0600; these files are for sharing
         os.replace(tmp, out)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)

@@ -21,7 +21,7 @@ DEMO_CARD = EXAMPLES / "pmtj35_demo.toml"
 CARD_FILE = "{name}.toml"
 REPORT_FILE = "wafer_report.html"
 DEVICES_FILE = "device_fits.csv"
-#: instances a Monte Carlo proof aims at (simulated dies x devices per die), at least twice the dies measured
+#: instances a Monte Carlo proof aims at (simulated dies x devices per die), and at least as many dies as measured
 MC_TARGET = 400
 
 
@@ -44,7 +44,7 @@ def add_commands(sub) -> None:
     p.add_argument("--bootstrap", type=int, default=300, help="bootstrap resamples of the dies (default 300)")
     p.add_argument("--seed", type=int, default=1, help="seed of the bootstrap and the Monte Carlo (default 1)")
     p.add_argument("--mc-dies", type=int, help="simulated dies of the Monte Carlo proof (default: enough for "
-                                               f"~{MC_TARGET} instances, at least twice the measured dies)")
+                                               f"~{MC_TARGET} instances, at least as many as the measured dies)")
     p.add_argument("--no-mc", action="store_true", help="skip the Monte Carlo proof (no ngspice needed)")
     p.add_argument("--truth", help="for synthetic wafers: the generator's truth.json, compared in the report")
     p.add_argument("--force", action="store_true", help="replace existing output files")
@@ -164,7 +164,7 @@ def run_wafer_stats(card_path, folder, output, devices=None, name=None, schedule
             per_die.setdefault(dv["die"], []).append(dv["drawn"])
         counts = {s: max(1, round(np.median([sum(1 for x in v if x == s) for v in per_die.values()]))) for s in sizes}
         layout = [s for s in sizes for _ in range(counts[s])]
-        k = mc_dies or max(2 * pop.n_dies, math.ceil(MC_TARGET / len(layout)))
+        k = mc_dies or max(pop.n_dies, math.ceil(MC_TARGET / len(layout)))
         meas = {"r_p": [], "r_ap": [], "tmr": []}
         for r in good:
             if r.id in pop.outliers:
@@ -183,7 +183,8 @@ def run_wafer_stats(card_path, folder, output, devices=None, name=None, schedule
         for row in proof.rows:
             say(f"  {row.quantity:5s} {row.drawn * 1e9:5.0f} nm: sd(ln) measured {row.sd_measured:.4f} "
                 f"[{row.sd_ci[0]:.4f}, {row.sd_ci[1]:.4f}], simulated {row.sd_simulated:.4f} "
-                f"{'inside' if row.sd_inside else 'OUTSIDE'}; KS p = {row.ks_p:.3g}"
+                f"[{row.sd_sim_ci[0]:.4f}, {row.sd_sim_ci[1]:.4f}] ({'inside' if row.sd_inside else 'outside'} the "
+                f"measured interval; {'agree' if row.sd_agrees else 'DISAGREE'}); KS p = {row.ks_p:.3g}"
                 f"{'' if row.ks_ok else ' REJECTED'}")
     truth_doc = json.loads(Path(truth).read_text()) if truth else None
     from compactgen.jobs.wafer.report import wafer_html
@@ -253,5 +254,5 @@ def cmd_wafer_stats(args) -> int:
 def demo_wafer(out_dir, say=None) -> WaferRun:
     """The demo's wafer step: examples/data/wafer (SYNTHETIC, examples/data/wafer/make_wafer.py) against
     examples/pmtj35_demo.toml, into OUT (card, report, per-device CSV)."""
-    return run_wafer_stats(DEMO_CARD, DEMO_WAFER, out_dir, bootstrap=200, mc_dies=None,
+    return run_wafer_stats(DEMO_CARD, DEMO_WAFER, out_dir, bootstrap=200, mc_dies=25,
                            truth=DEMO_WAFER / "truth.json", force=True, say=say)

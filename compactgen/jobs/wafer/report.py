@@ -264,11 +264,12 @@ def wafer_html(card, new_card, pop, results, excluded, tab, proof, truth, second
     parts.append("<h2>Wafer maps</h2>" + _img(wafer_maps(pop, by_dev, dmap, pos, tab.position_unit)))
     if proof is not None:
         rows = "".join(
-            f"<tr{'' if (r.sd_inside and r.ks_ok) else ' class=bad'}><td>{r.quantity}</td><td>{r.drawn * 1e9:.4g}</td>"
+            f"<tr{'' if (r.sd_agrees and r.ks_ok) else ' class=bad'}><td>{r.quantity}</td><td>{r.drawn * 1e9:.4g}</td>"
             f"<td>{r.n_measured}</td><td>{r.n_simulated}</td><td>{r.median_measured:.5g}</td>"
             f"<td>{r.median_simulated:.5g}</td><td>{r.sd_measured:.4f}</td><td>{_ci(r.sd_ci)}</td>"
-            f"<td>{r.sd_simulated:.4f} {_inside(r.sd_simulated, r.sd_ci)}</td><td>{r.ks_stat:.3f}</td>"
-            f"<td>{r.ks_p:.3g}</td></tr>" for r in proof.rows)
+            f"<td>{r.sd_simulated:.4f} {_ci(r.sd_sim_ci)}</td><td>{_inside(r.sd_simulated, r.sd_ci)}</td>"
+            f"<td>{'<span class=ok>agree</span>' if r.sd_agrees else '<b class=warn>disagree</b>'}</td>"
+            f"<td>{r.ks_stat:.3f}</td><td>{r.ks_p:.3g}</td></tr>" for r in proof.rows)
         verdict = ("<span class=ok>every simulated sigma inside its interval, no KS test rejects</span>" if proof.passed
                    else "<b class=warn>the simulated population differs from the measured one</b>")
         from compactgen.jobs.wafer.montecarlo import KS_LEVEL
@@ -276,11 +277,14 @@ def wafer_html(card, new_card, pop, results, excluded, tab, proof, truth, second
         parts.append(f"<h2>Monte Carlo proof (ngspice, section mc)</h2><p>{proof.dies} simulated dies (one ngspice run "
                      f"each: one global draw, one mismatch draw per instance), {proof.instances} instances, each run "
                      "parallel and antiparallel with the same seed (draws read back and compared: equal); R = V/I at "
-                     f"1 mV. Criteria: simulated sd of ln q inside the measured one's 95 % bootstrap interval, and the "
-                     f"two-sample Kolmogorov-Smirnov test (scipy.stats.ks_2samp) not rejecting at {KS_LEVEL:g}. Verdict: "
+                     f"1 mV. Criteria: the simulated and measured sd of ln q agree (their difference within the two 95 % "
+                     "bootstrap half-widths added in quadrature; 'inside' says whether the simulated sd also lies in "
+                     "the measured interval alone), and the two-sample Kolmogorov-Smirnov test (scipy.stats.ks_2samp) "
+                     f"does not reject at {KS_LEVEL:g}. Verdict: "
                      f"{verdict}.</p><table><tr><th>quantity</th><th>drawn [nm]</th><th>measured</th><th>simulated</th>"
                      "<th>median measured</th><th>median simulated</th><th>sd(ln) measured</th><th>95 % interval</th>"
-                     f"<th>sd(ln) simulated</th><th>KS D</th><th>KS p</th></tr>{rows}</table>"
+                     "<th>sd(ln) simulated [95 %]</th><th>in measured interval</th><th>sd agree</th><th>KS D</th>"
+                     f"<th>KS p</th></tr>{rows}</table>"
                      + _img(mc_histograms(proof)) + "<h3>Global draws of the simulated dies</h3>" + _img(draws_plot(proof)))
     ex = "".join(f"<tr><td>{html.escape(d)}</td><td>{html.escape(w)}</td></tr>" for d, w in sorted(excluded.items()))
     ol = "".join(f"<tr><td>{html.escape(d)}</td><td>{html.escape(w)}</td></tr>" for d, w in sorted(pop.outliers.items()))

@@ -74,6 +74,7 @@ def _write(path: Path, text: str) -> None:
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as f:
             f.write(text)
+        os.chmod(tmp, 0o644)  # mkstemp makes 0600; these files are for sharing
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
