@@ -58,6 +58,38 @@ def main() -> int:
         print(f"Monte Carlo proof: {run.proof.instances} instances x 2 states in ngspice: {s['mc']:.1f} s; "
               f"{'passed' if run.proof.passed else 'FAILED'}")
     print(f"whole command: {wall:.1f} s wall, {cpu:.1f} s CPU (this process and its children)")
+    from compactgen.jobs.wafer.report import true_sigmas
+
+    pop = run.population
+    print(f"\nrecovered versus true (95 % bootstrap intervals over {pop.n_dies} dies; mismatch at area_ref = "
+          f"{pop.area_ref * 1e18:.0f} nm^2):")
+    for n, st in pop.params.items():
+        if n not in truth["parameters"]:
+            continue
+        sg, sm = true_sigmas(truth, n, pop.area_ref)
+        t = truth["parameters"][n]
+        print(f"  {n:5s} mean {st.mean:.5g} [{st.ci_mean[0]:.5g}, {st.ci_mean[1]:.5g}] true {t['mean']:.5g}; "
+              f"sigma_global {st.sigma_global:.4f} [{st.ci_global[0]:.4f}, {st.ci_global[1]:.4f}] true {sg:.4f}; "
+              f"sigma_mismatch {st.sigma_mismatch:.4f} [{st.ci_mismatch[0]:.4f}, {st.ci_mismatch[1]:.4f}] true {sm:.4f}")
+    names = pop.names
+    tc = truth["correlation"]
+    for i, a in enumerate(names):
+        for j in range(i + 1, len(names)):
+            b = names[j]
+            if a in tc["parameters"] and b in tc["parameters"]:
+                tv = tc["population"][tc["parameters"].index(a)][tc["parameters"].index(b)]
+                print(f"  correlation {a}-{b}: {pop.correlation[i, j]:+.3f} [{pop.correlation_ci[0][i, j]:+.3f}, "
+                      f"{pop.correlation_ci[1][i, j]:+.3f}] true {tv:+.3f}")
+    print(f"  diameter offset {pop.offset * 1e9:.3g} nm [{pop.offset_ci[0] * 1e9:.3g}, {pop.offset_ci[1] * 1e9:.3g}] "
+          f"true {truth['diameter_offset_m'] * 1e9:.3g} nm")
+    flagged = set(run.excluded) | set(pop.outliers)
+    print(f"  planted bad devices flagged: {sum(d in flagged for d in truth['bad_devices'])}/{len(truth['bad_devices'])}; "
+          f"good devices flagged: {len(flagged - set(truth['bad_devices']))}")
+    if run.proof is not None:
+        print("\nMonte Carlo proof (sd of ln q, measured [95 %] vs simulated [95 %], KS p):")
+        for r in run.proof.rows:
+            print(f"  {r.quantity:5s} {r.drawn * 1e9:4.0f} nm: {r.sd_measured:.4f} [{r.sd_ci[0]:.4f}, {r.sd_ci[1]:.4f}] "
+                  f"vs {r.sd_simulated:.4f} [{r.sd_sim_ci[0]:.4f}, {r.sd_sim_ci[1]:.4f}]  KS p = {r.ks_p:.3g}")
     return 0
 
 

@@ -166,8 +166,11 @@ def read_device_datasets(path: str | Path, column: str = "device", add_meta=None
     return out
 
 
-def _parse_file(path: Path, kind: str | None) -> dict:
-    """Header, metadata, schema, column units and raw rows of a data file (nothing converted)."""
+def read_csv_cells(path: Path) -> dict:
+    """The CSV conventions of every data file, no schema: ``# key: value`` metadata (each once),
+    the header of ``name [unit]`` cells (names normalised, each once), and the rows as text cells
+    with their line numbers.  Returns path, meta, meta_line, names, units, header_at, sep, rows,
+    row_lines, sha256."""
     if not path.is_file():
         raise DataError(f"{path}: no such data file")
     raw = path.read_bytes()
@@ -209,6 +212,27 @@ def _parse_file(path: Path, kind: str | None) -> dict:
             raise DataError(f"{path}, line {header_at}: column '{name}' appears twice (ambiguous)")
         names.append(name)
         units.append((m.group("unit") or "").strip())
+    # rows
+    rows: list[list[str]] = []
+    row_lines: list[int] = []
+    for i in range(header_at + 1, len(lines) + 1):
+        s = lines[i - 1].strip()
+        if not s or s.startswith("#"):
+            continue
+        cells = [c.strip() for c in lines[i - 1].split(sep)]
+        if len(cells) != len(names):
+            raise DataError(f"{path}, line {i}: {len(cells)} values, but the header has {len(names)} columns")
+        rows.append(cells)
+        row_lines.append(i)
+    return dict(path=path, meta=meta, meta_line=meta_line, names=names, units=units, header_at=header_at, sep=sep,
+                rows=rows, row_lines=row_lines, sha256=hashlib.sha256(raw).hexdigest())
+
+
+def _parse_file(path: Path, kind: str | None) -> dict:
+    """Header, metadata, schema, column units and raw rows of a data file (nothing converted)."""
+    cells = read_csv_cells(path)
+    meta, meta_line, names, units, header_at = (cells[k] for k in ("meta", "meta_line", "names", "units", "header_at"))
+    rows, row_lines = cells["rows"], cells["row_lines"]
     schema = _pick_schema(path, kind or meta.get("measurement"), names, meta_line.get("measurement"))
     specs = schema.column_specs()
     for group in schema.columns:
@@ -230,23 +254,11 @@ def _parse_file(path: Path, kind: str | None) -> dict:
         if n not in specs:
             continue
         maps[n] = _column_map(path, header_at, n, u, specs[n])
-    # rows
-    rows: list[list[str]] = []
-    row_lines: list[int] = []
-    for i in range(header_at + 1, len(lines) + 1):
-        s = lines[i - 1].strip()
-        if not s or s.startswith("#"):
-            continue
-        cells = [c.strip() for c in lines[i - 1].split(sep)]
-        if len(cells) != len(names):
-            raise DataError(f"{path}, line {i}: {len(cells)} values, but the header has {len(names)} columns")
-        rows.append(cells)
-        row_lines.append(i)
     if not rows:
         raise DataError(f"{path}: no data rows after the header (line {header_at})")
     return dict(path=path, schema=schema, meta=meta, meta_line=meta_line, names=names, units=units, used=used,
                 ignored=ignored, specs=specs, maps=maps, rows=rows, row_lines=row_lines, header_at=header_at,
-                sha256=hashlib.sha256(raw).hexdigest())
+                sha256=cells["sha256"])
 
 
 def _dataset(parsed: dict, rows: list[list[str]], row_lines: list[int], extra_meta: dict[str, str]) -> Dataset:
@@ -316,6 +328,19 @@ def _column_map(path: Path, line: int, name: str, unit: str, spec: ColumnSpec) -
                         f"(for example {spec.example or spec.si_unit})") from None
 
 
+def cell_number(path, line: int, column: str, text: str) -> float:
+    """A finite number from one cell; a DataError naming file, line and column otherwise."""
+    if text == "":
+        raise DataError(f"{path}, line {line}, column '{column}': empty value")
+    try:
+        x = float(text)
+    except ValueError:
+        raise DataError(f"{path}, line {line}, column '{column}': {text!r} is not a number") from None
+    if not math.isfinite(x):
+        raise DataError(f"{path}, line {line}, column '{column}': {text!r} is not a finite number (NaN or inf)")
+    return x
+
+
 def _column_values(path: Path, lines: list[int], name: str, cells: list[str], spec: ColumnSpec,
                    lin: tuple[float, float]) -> np.ndarray:
     if spec.si_unit is None:
@@ -328,14 +353,7 @@ def _column_values(path: Path, lines: list[int], name: str, cells: list[str], sp
         return np.asarray(out)
     vals = np.empty(len(cells))
     for k, (ln, c) in enumerate(zip(lines, cells)):
-        if c == "":
-            raise DataError(f"{path}, line {ln}, column '{name}': empty value")
-        try:
-            x = float(c)
-        except ValueError:
-            raise DataError(f"{path}, line {ln}, column '{name}': {c!r} is not a number") from None
-        if not math.isfinite(x):
-            raise DataError(f"{path}, line {ln}, column '{name}': {c!r} is not a finite number (NaN or inf)")
+        x = cell_number(path, ln, name, c)
         if spec.integer and (x != round(x) or x < 0):
             raise DataError(f"{path}, line {ln}, column '{name}': {c!r} must be a whole number >= 0")
         vals[k] = x

@@ -109,14 +109,20 @@ def write_card(text: str, out: Path, force: bool, inputs: list[Path]) -> Path:
     if out.exists() and not force:
         raise InputError(f"{out}: exists already; choose another name or pass --force")
     parse_card(text, str(out))  # valid before anything is written
-    out.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{out.name}.", dir=out.parent)
+    write_text_atomic(out, text)
+    return out
+
+
+def write_text_atomic(path: Path, text: str) -> None:
+    """Whole file or nothing: a temporary file beside it, moved into place."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as f:
             f.write(text)
         os.chmod(tmp, 0o644)  # mkstemp makes 0600; these files are for sharing
-        os.replace(tmp, out)
+        os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
         raise
-    return out

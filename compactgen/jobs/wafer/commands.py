@@ -21,7 +21,7 @@ DEMO_CARD = EXAMPLES / "pmtj35_demo.toml"
 CARD_FILE = "{name}.toml"
 REPORT_FILE = "wafer_report.html"
 DEVICES_FILE = "device_fits.csv"
-#: instances a Monte Carlo proof aims at (simulated dies x devices per die), and at least as many dies as measured
+#: instances a Monte Carlo proof aims at (simulated dies x one device per size), at least twice the dies measured
 MC_TARGET = 400
 
 
@@ -44,15 +44,11 @@ def add_commands(sub) -> None:
     p.add_argument("--bootstrap", type=int, default=300, help="bootstrap resamples of the dies (default 300)")
     p.add_argument("--seed", type=int, default=1, help="seed of the bootstrap and the Monte Carlo (default 1)")
     p.add_argument("--mc-dies", type=int, help="simulated dies of the Monte Carlo proof (default: enough for "
-                                               f"~{MC_TARGET} instances, at least as many as the measured dies)")
+                                               f"~{MC_TARGET} instances, at least twice the measured dies)")
     p.add_argument("--no-mc", action="store_true", help="skip the Monte Carlo proof (no ngspice needed)")
     p.add_argument("--truth", help="for synthetic wafers: the generator's truth.json, compared in the report")
     p.add_argument("--force", action="store_true", help="replace existing output files")
     p.set_defaults(func=cmd_wafer_stats)
-
-
-def _say(msg: str) -> None:
-    print(msg, file=sys.stderr, flush=True)
 
 
 @dataclass
@@ -77,7 +73,7 @@ def run_wafer_stats(card_path, folder, output, devices=None, name=None, schedule
     from compactgen.model.card import load_card, parse_card
     from compactgen.model.variation import varied_names
 
-    say = say or _say
+    say = say or (lambda m: print(m, file=sys.stderr, flush=True))
     t = {"start": time.perf_counter()}
     card = load_card(card_path)
     if card.kind != "stt-mtj":
@@ -157,14 +153,8 @@ def run_wafer_stats(card_path, folder, output, devices=None, name=None, schedule
     new_card = parse_card(text, str(targets[0]))
     proof = None
     if mc:
-        per_die = {}
-        for dv in devs:
-            if dv["id"] in pop.outliers:
-                continue
-            per_die.setdefault(dv["die"], []).append(dv["drawn"])
-        counts = {s: max(1, round(np.median([sum(1 for x in v if x == s) for v in per_die.values()]))) for s in sizes}
-        layout = [s for s in sizes for _ in range(counts[s])]
-        k = mc_dies or max(pop.n_dies, math.ceil(MC_TARGET / len(layout)))
+        layout = list(sizes)  # one instance of each size per simulated die
+        k = mc_dies or max(2 * pop.n_dies, math.ceil(MC_TARGET / len(layout)))
         meas = {"r_p": [], "r_ap": [], "tmr": []}
         for r in good:
             if r.id in pop.outliers:
@@ -246,7 +236,8 @@ def cmd_wafer_stats(args) -> int:
                           args.workers, args.bootstrap, args.seed, args.mc_dies, not args.no_mc, args.truth,
                           args.force)
     if run.proof is not None and not run.proof.passed:
-        _say("Monte Carlo proof: the simulated population does not match the measured one (see the report)")
+        print("Monte Carlo proof: the simulated population does not match the measured one (see the report)",
+              file=sys.stderr)
         return 1
     return 0
 
@@ -254,5 +245,5 @@ def cmd_wafer_stats(args) -> int:
 def demo_wafer(out_dir, say=None) -> WaferRun:
     """The demo's wafer step: examples/data/wafer (SYNTHETIC, examples/data/wafer/make_wafer.py) against
     examples/pmtj35_demo.toml, into OUT (card, report, per-device CSV)."""
-    return run_wafer_stats(DEMO_CARD, DEMO_WAFER, out_dir, bootstrap=200, mc_dies=25,
+    return run_wafer_stats(DEMO_CARD, DEMO_WAFER, out_dir, bootstrap=200, mc_dies=60,
                            truth=DEMO_WAFER / "truth.json", force=True, say=say)

@@ -229,7 +229,7 @@ def analyse(devices: list[dict], names: list[str], area_ref: float, bootstrap: i
         boot_sm.append(s_m)
         boot_mean.append(bet @ cnt / cnt.sum())
         boot_corr.append(c)
-        if np.all(np.isfinite(r_p)) and offset is None:
+        if np.all(np.isfinite(r_p)):
             boot_off.append(diameter_offset(drawn[idx], r_p[idx]))
         if progress and (b + 1) % max(1, bootstrap // 10) == 0:
             progress(f"bootstrap over dies: {b + 1}/{bootstrap}")

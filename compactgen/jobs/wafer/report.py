@@ -251,7 +251,6 @@ def wafer_html(card, new_card, pop, results, excluded, tab, proof, truth, second
                  f"draws of {', '.join(varied)} with this correlation (Cholesky factor times independent agauss draws); "
                  "mismatch draws are independent.</p><table><tr><th></th>" + "".join(f"<th>{n}</th>" for n in pop.names)
                  + f"</tr>{corr_t}</table>" + _img(corr_plot(pop.names, pop.correlation, "global correlation")))
-    devs_drawn = [by.drawn_diameter for by in tab.devices]
     by_id = tab.by_id()
     fitted = {r.id: r for r in results if r.ok}
     rp = [(by_id[d].drawn_diameter, fitted[d].figures["r_p"]) for d in pop.used if d in fitted]

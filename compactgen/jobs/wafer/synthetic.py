@@ -22,14 +22,13 @@ from __future__ import annotations
 
 import json
 import math
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
 import sympy as sp
 
 from compactgen.model.constants import MU0
+from compactgen.jobs.wafer.card_out import write_text_atomic as _write
 from compactgen.physics import coercivity
 
 MT = 1e-3 / MU0  # A/m per mT
@@ -65,20 +64,6 @@ def die_positions(n_dies: int, pitch_mm: float = 12.0) -> tuple[np.ndarray, floa
     order = np.lexsort((np.arctan2(xy[:, 1], xy[:, 0]), r))
     pos = xy[order[:n_dies]]
     return pos, float(np.hypot(pos[:, 0], pos[:, 1]).max() + pitch_mm)
-
-
-def _write(path: Path, text: str) -> None:
-    """Whole file or nothing: a temporary file moved into place."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8") as f:
-            f.write(text)
-        os.chmod(tmp, 0o644)  # mkstemp makes 0600; these files are for sharing
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
 
 
 def make_wafer(card, out_dir, n_dies: int = 12, per_size: int = 2, seed: int = 1, drawn_nm=DRAWN_NM,

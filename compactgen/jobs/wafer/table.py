@@ -18,7 +18,6 @@ conventions (``# key: value`` metadata, units in brackets, comma or tab separate
 from __future__ import annotations
 
 import math
-import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -28,7 +27,6 @@ from compactgen.errors import DataError, UnitError
 from compactgen.model.units import linear_map, to_si
 
 TABLE_NAME = "devices.csv"
-_CELL = re.compile(r"^\s*(?P<name>[^\[\]]*?)\s*(?:\[(?P<unit>[^\[\]]*)\])?\s*$")
 
 
 @dataclass
@@ -58,48 +56,16 @@ class DeviceTable:
         return sorted({d.die for d in self.devices})
 
 
-def _norm(name: str) -> str:
-    return re.sub(r"[\s\-]+", "_", name.strip().lower())
-
-
 def read_device_table(path: str | Path) -> DeviceTable:
     """Read and check the device table; every error names the file, the line and the column."""
+    from compactgen.jobs.calibrate.data import cell_number, read_csv_cells
+
     path = Path(path)
     if not path.is_file():
         raise DataError(f"{path}: no device table (expected a CSV with columns device, die_x, die_y, "
                         "diameter [nm])")
-    try:
-        lines = path.read_text(encoding="utf-8-sig").splitlines()
-    except UnicodeDecodeError as exc:
-        raise DataError(f"{path}: not UTF-8 text (byte {exc.start})") from None
-    meta: dict[str, str] = {}
-    header_at = None
-    for i, line in enumerate(lines, start=1):
-        s = line.strip()
-        if not s:
-            continue
-        if s.startswith("#"):
-            m = re.match(r"^#\s*([A-Za-z][A-Za-z0-9 _\-]*?)\s*:\s*(.*?)\s*$", s)
-            if m:
-                meta[_norm(m.group(1))] = m.group(2)
-            continue
-        header_at = i
-        break
-    if header_at is None:
-        raise DataError(f"{path}: no header line (expected 'device,die_x [mm],die_y [mm],diameter [nm]')")
-    header = lines[header_at - 1]
-    sep = "\t" if ("\t" in header and "," not in header) else ","
-    names, units = [], []
-    for col, cell in enumerate(header.split(sep), start=1):
-        m = _CELL.match(cell)
-        if not m or not m.group("name"):
-            raise DataError(f"{path}, line {header_at}, column {col}: cannot read header cell {cell!r}; expected "
-                            "'name [unit]'")
-        n = _norm(m.group("name"))
-        if n in names:
-            raise DataError(f"{path}, line {header_at}: column '{n}' appears twice")
-        names.append(n)
-        units.append((m.group("unit") or "").strip())
+    cells = read_csv_cells(path)
+    meta, names, units, header_at = cells["meta"], cells["names"], cells["units"], cells["header_at"]
     for need in ("device", "die_x", "die_y"):
         if need not in names:
             raise DataError(f"{path}, line {header_at}: missing column '{need}' (columns found: {', '.join(names)}); "
@@ -122,14 +88,8 @@ def read_device_table(path: str | Path) -> DeviceTable:
     size_map = _map(path, header_at, size_col, units[names.index(size_col)], size_si)
     devices: list[Device] = []
     seen: dict[str, int] = {}
-    for i in range(header_at + 1, len(lines) + 1):
-        s = lines[i - 1].strip()
-        if not s or s.startswith("#"):
-            continue
-        cells = [c.strip() for c in lines[i - 1].split(sep)]
-        if len(cells) != len(names):
-            raise DataError(f"{path}, line {i}: {len(cells)} values, but the header has {len(names)} columns")
-        row = dict(zip(names, cells))
+    for i, row_cells in zip(cells["row_lines"], cells["rows"]):
+        row = dict(zip(names, row_cells))
         dev = row["device"]
         if not dev:
             raise DataError(f"{path}, line {i}, column 'device': empty device id")
@@ -137,9 +97,9 @@ def read_device_table(path: str | Path) -> DeviceTable:
             raise DataError(f"{path}, line {i}, column 'device': device {dev!r} listed twice (first on line "
                             f"{seen[dev]})")
         seen[dev] = i
-        x = _number(path, i, "die_x", row["die_x"]) * pos_map[0]
-        y = _number(path, i, "die_y", row["die_y"]) * pos_map[0]
-        size = _number(path, i, size_col, row[size_col]) * size_map[0]
+        x = cell_number(path, i, "die_x", row["die_x"]) * pos_map[0]
+        y = cell_number(path, i, "die_y", row["die_y"]) * pos_map[0]
+        size = cell_number(path, i, size_col, row[size_col]) * size_map[0]
         if not size > 0:
             raise DataError(f"{path}, line {i}, column '{size_col}': {row[size_col]!r} must be positive")
         area = size if size_col == "area" else math.pi / 4 * size**2
@@ -157,16 +117,6 @@ def _map(path, line, col, unit, si):
         raise DataError(f"{path}, line {line}, column '{col}': unit [{unit}] is not a unit of "
                         f"{'length' if si in ('m', 'mm') else 'area'} (expected e.g. "
                         f"{'nm' if si == 'm' else 'mm' if si == 'mm' else 'um^2'})") from None
-
-
-def _number(path, line, col, text) -> float:
-    try:
-        x = float(text)
-    except ValueError:
-        raise DataError(f"{path}, line {line}, column '{col}': {text!r} is not a number") from None
-    if not math.isfinite(x):
-        raise DataError(f"{path}, line {line}, column '{col}': {text!r} is not a finite number")
-    return x
 
 
 @dataclass
