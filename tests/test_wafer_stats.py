@@ -242,3 +242,16 @@ def test_release_comparison_flags_a_sigma_or_correlation_outside_its_band(card):
     assert rows["sigma_global_tmr0"].status == "identical"
     plain = {"parameters": {k: {"value": v} for k, v in card.values.items()}}
     assert compare_variation(plain, plain) == []
+
+
+def test_bad_wafer_folder_exits_2_and_writes_nothing(tmp_path, capsys):
+    from compactgen.cli import main
+
+    folder = tmp_path / "wafer"
+    folder.mkdir()
+    (folder / "devices.csv").write_text("device,die_x [mm],die_y [mm],diameter [nm]\nA1,0,0,35\nA2,0,zero,35\n")
+    (folder / "rv.csv").write_text("device,voltage [V],resistance [ohm],state\nA1,0.1,4000,P\n")
+    out = tmp_path / "out"
+    assert main(["wafer-stats", str(CARD), str(folder), "-o", str(out), "--no-mc"]) == 2
+    assert "devices.csv, line 3, column 'die_y': 'zero' is not a number" in capsys.readouterr().err
+    assert not out.exists()

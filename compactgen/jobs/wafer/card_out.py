@@ -10,8 +10,7 @@ import tempfile
 from pathlib import Path
 
 from compactgen import __version__
-from compactgen.errors import InputError
-from compactgen.model.card import card_text, parse_card
+from compactgen.model.card import card_text
 from compactgen.model.variation import cholesky
 
 METHOD = ("per-device maximum-likelihood fits (compactgen fit); ln p = size mean + die effect (global) + device "
@@ -98,19 +97,6 @@ def population_card_text(card, pop, name: str, tnom: float | None, summary: dict
     text = card_text(card.kind, name, values, desc, card.options, {k: v for k, v in unc.items() if v > 0}, prov,
                      header, frozenset(given), variation)
     return text, values
-
-
-def write_card(text: str, out: Path, force: bool, inputs: list[Path]) -> Path:
-    """Check and write the card atomically; never over an input or an existing file without --force."""
-    out = Path(out)
-    for p in inputs:
-        if p is not None and out.exists() and out.resolve() == Path(p).resolve():
-            raise InputError(f"{out}: this is an input; choose another -o")
-    if out.exists() and not force:
-        raise InputError(f"{out}: exists already; choose another name or pass --force")
-    parse_card(text, str(out))  # valid before anything is written
-    write_text_atomic(out, text)
-    return out
 
 
 def write_text_atomic(path: Path, text: str) -> None:

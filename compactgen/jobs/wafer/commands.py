@@ -67,7 +67,7 @@ def run_wafer_stats(card_path, folder, output, devices=None, name=None, schedule
                     bootstrap=300, seed=1, mc_dies=None, mc=True, truth=None, force=False, say=None) -> WaferRun:
     from compactgen.jobs.build import write_files
     from compactgen.jobs.wafer import fits as wfits
-    from compactgen.jobs.wafer.card_out import population_card_text, write_card
+    from compactgen.jobs.wafer.card_out import population_card_text
     from compactgen.jobs.wafer.population import analyse, diameter_offset
     from compactgen.jobs.wafer.table import die_index, load_wafer
     from compactgen.model.card import load_card, parse_card
@@ -82,10 +82,11 @@ def run_wafer_stats(card_path, folder, output, devices=None, name=None, schedule
     out = Path(output)
     name = name or f"{card.name}_wafer"
     targets = [out / CARD_FILE.format(name=name), out / REPORT_FILE, out / DEVICES_FILE]
-    if not force:
-        for p in targets:
-            if p.exists():
-                raise InputError(f"{p}: exists already; choose another -o or pass --force")
+    for p in targets:
+        if p.exists() and p.resolve() == Path(card_path).resolve():
+            raise InputError(f"{p}: this is the input card; wafer-stats never overwrites its input (choose another -o)")
+        if p.exists() and not force:
+            raise InputError(f"{p}: exists already; choose another -o or pass --force")
     wafer = load_wafer(folder, devices)
     tab = wafer.table
     say(f"read {tab.path}: {len(tab.devices)} devices on {len(tab.dies())} dies; {len(wafer.files)} measurement "
@@ -182,9 +183,7 @@ def run_wafer_stats(card_path, folder, output, devices=None, name=None, schedule
     t["total"] = time.perf_counter() - t["start"]
     html = wafer_html(card, new_card, pop, results, excluded, tab, proof, truth_doc, t, offset, dmap, pos)
     files = {targets[0].name: text, REPORT_FILE: html, DEVICES_FILE: devices_csv(tab, results, excluded, pop, offset)}
-    write_card(text, targets[0], force=True, inputs=[Path(card_path)])  # checked, atomic
-    del files[targets[0].name]
-    write_files(files, out)
+    write_files(files, out)  # all three or none (the card was checked by parse_card above)
     say(f"wrote {targets[0]}, {targets[1]}, {targets[2]}")
     return WaferRun(targets[0], targets[1], targets[2], pop, results, proof, excluded, t)
 
