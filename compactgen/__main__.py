@@ -3,4 +3,5 @@ import sys
 
 from compactgen.cli import main
 
-sys.exit(main())
+if __name__ == "__main__":  # forkserver/spawn workers import __main__ again: no second run there
+    sys.exit(main())

@@ -102,7 +102,7 @@ def _extensions():
     """Subcommands that live with their feature (fit, release, ...): each module may define
     ``add_commands(subparsers)``."""
     out = []
-    for mod in ("compactgen.jobs.calibrate.commands", "compactgen.jobs.release",
+    for mod in ("compactgen.jobs.calibrate.commands", "compactgen.jobs.wafer.commands", "compactgen.jobs.release",
                 "compactgen.jobs.sample_cards", "compactgen.jobs.range_report"):
         try:
             m = __import__(mod, fromlist=["add_commands"])
@@ -234,6 +234,7 @@ def cmd_demo(args) -> int:
             say(f"wrote {demo_thermal(card_path, out / card.name, progress=say)}")
         runs[card.name] = (card_path, result)
     ok &= _demo_release(out, runs)
+    ok &= _demo_wafer(out)
     write_files({DEMO_INDEX: demo_index(out, ok)}, out)  # one file, moved into place whole
     say(f"demo finished in {out}: {'every bench passed' if ok else 'SOME BENCHES FAILED'}; start page "
         f"{out / DEMO_INDEX}")
@@ -275,6 +276,11 @@ def _describe_demo_file(rel: Path) -> str:
             return "fit report: data against the fitted model, standard errors, correlations, recovered values"
         if name.endswith(".toml"):
             return "card written by `compactgen fit`: fitted values, [uncertainty], [provenance]"
+    if parts[0] == "wafer":
+        return {"wafer_report.html": "wafer statistics: population spread, mismatch against 1/sqrt(area), "
+                                     "correlations, wafer maps, Monte Carlo proof in ngspice",
+                "device_fits.csv": "every device of the synthetic wafer: fitted values, fit quality, status"}.get(
+            name, "card written by `compactgen wafer-stats`: population means, sigmas and [variation]")
     if parts[0] == "releases":
         if len(parts) == 2 and name.endswith(".refused.html"):
             return "report of a release that was refused (changes outside tolerance without --accept)"
@@ -328,7 +334,8 @@ def demo_index(out: Path, ok: bool) -> str:
             f"<h1>compactgen demo</h1><p>compactgen {_html.escape(__version__)}. Verdict: <b>{verdict}</b>. "
             "Every file the demo wrote, by folder: the example cards, one folder per model (build and "
             "verification), fit/ (cards fitted to the bundled synthetic data), releases/ (bundles and "
-            f"comparisons).</p>{''.join(sections)}</body></html>\n")
+            "comparisons), wafer/ (statistics of a synthetic wafer: <a href='wafer/wafer_report.html'>report</a>)."
+            f"</p>{''.join(sections)}</body></html>\n")
 
 
 def _fitted_demo(out: Path) -> list[Path]:
@@ -341,6 +348,20 @@ def _fitted_demo(out: Path) -> list[Path]:
             return []
         raise
     return demo_fits(out / "fit")
+
+
+def _demo_wafer(out: Path) -> bool:
+    """The demo's wafer step, when compactgen.jobs.wafer is present: the synthetic wafer of
+    examples/data/wafer through `wafer-stats` into OUT/wafer (card, report, per-device CSV)."""
+    try:
+        from compactgen.jobs.wafer.commands import demo_wafer
+    except ModuleNotFoundError as exc:
+        if exc.name and "compactgen.jobs.wafer.commands".startswith(exc.name):
+            return True
+        raise
+    say("== wafer statistics (synthetic wafer examples/data/wafer) ==")
+    run = demo_wafer(out / "wafer", say=say)
+    return run.proof is None or run.proof.passed
 
 
 def _demo_release(out: Path, runs: dict) -> bool:

@@ -44,7 +44,14 @@ def quick_demo(tmp_path, monkeypatch):
 
     monkeypatch.setattr(cli, "verify_card", verify)
     monkeypatch.setattr(cli, "_fitted_demo", fits)
+    def wafer(out):
+        (out / "wafer").mkdir(parents=True, exist_ok=True)
+        for name in ("wafer_report.html", "device_fits.csv", "pmtj35_demo_wafer.toml"):
+            (out / "wafer" / name).write_text("x")
+        return True
+
     monkeypatch.setattr(cli, "_demo_release", release)
+    monkeypatch.setattr(cli, "_demo_wafer", wafer)
     return tmp_path / "demo"
 
 
@@ -62,6 +69,7 @@ def test_index_links_every_file_with_what_it_is(quick_demo):
     assert links["releases/sot50_demo-1.1.0/release.json"].startswith("release manifest")
     assert links["releases/sot50_demo-1.1.0/sot50_demo.va"] == "Verilog-A module"
     assert links["fit/fit_report.html"].startswith("fit report")
+    assert links["wafer/wafer_report.html"].startswith("wafer statistics")
     assert links["sot50_demo.toml"].startswith("example card")
     assert "written by the demo" not in links.values()  # every file the demo writes is described
     assert "every bench passed" in page

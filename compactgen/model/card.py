@@ -5,6 +5,8 @@
     [parameters]        name = "value unit"   (units parsed with pint into SI)
     [uncertainty]       name = "value unit"   standard errors (written by `compactgen fit`)
     [provenance]        free-form table (written by `compactgen fit`)
+    [variation]         where the process sigmas came from (written by `compactgen wafer-stats`):
+                        origin, the correlation of the global draws, intervals (model/variation.py)
 
 Every error names the file, the key, the value with its unit and what was expected.  A table or
 key renamed in this release is still read under its old name, with a RenamedInCard warning
@@ -29,7 +31,7 @@ from compactgen.model.params import RESERVED, reserved_reason
 from compactgen.model.units import to_si
 
 _NAME = re.compile(r"^[a-z][a-z0-9_]{0,40}$")
-TOP_TABLES = ("device", "options", "parameters", "uncertainty", "provenance")
+TOP_TABLES = ("device", "options", "parameters", "uncertainty", "provenance", "variation")
 
 #: renamed in this release, old name accepted (with a RenamedInCard warning) in this release only:
 #: top-level tables, old -> (new, what it holds)
@@ -63,6 +65,7 @@ class Card:
     text: str = ""
     uncertainty: dict[str, float] = field(default_factory=dict)
     provenance: dict = field(default_factory=dict)
+    variation: dict = field(default_factory=dict)  # [variation] (checked by model/variation.check_table)
 
     @property
     def device(self):
@@ -72,7 +75,12 @@ class Card:
         memo = self.__dict__.pop("_ir_once", None)
         if memo is not None and memo[0] == self._ir_inputs():
             return memo[1]
-        return self.device.build_ir(self.name, self.values, self.options)
+        ir = self.device.build_ir(self.name, self.values, self.options)
+        if self.variation.get("correlated"):
+            from compactgen.model.variation import global_correlation
+
+            ir.global_correlation = global_correlation(self.variation)
+        return ir
 
     def _ir_inputs(self) -> tuple:
         return (self.kind, self.name, tuple(self.options.items()), tuple(self.values.items()))
@@ -95,7 +103,8 @@ class Card:
         new = dict(self.values)
         new.update(values)
         return Card(self.kind, name or self.name, self.description, dict(self.options), new,
-                    self.given | frozenset(values), None, "", dict(self.uncertainty), dict(self.provenance))
+                    self.given | frozenset(values), None, "", dict(self.uncertainty), dict(self.provenance),
+                    dict(self.variation))
 
 
 def load_card(path: str | Path) -> Card:
@@ -200,8 +209,11 @@ def parse_card(text: str, where: str = "<card>", path: Path | None = None) -> Ca
     from compactgen.model.variation import sigmas_from_uncertainty
 
     values = sigmas_from_uncertainty(values, uncertainty, given)
+    from compactgen.model.variation import check_table
+
+    variation = check_table(doc.get("variation", {}), values, where)
     card = Card(kind.key, name, str(dev.get("description", "")), options, values, given, path, text,
-                uncertainty, dict(doc.get("provenance", {})))
+                uncertainty, dict(doc.get("provenance", {})), variation)
     try:
         from compactgen.model.evaluate import numeric_parameters
 
@@ -270,7 +282,8 @@ def _no_unknown(table: dict, allowed: tuple[str, ...], where: str, what: str) ->
 
 def card_text(kind_key: str, name: str, values: dict[str, float] | None = None, description: str = "",
               options: dict[str, str] | None = None, uncertainty: dict[str, float] | None = None,
-              provenance: dict | None = None, header: str = "", given: frozenset[str] = frozenset()) -> str:
+              provenance: dict | None = None, header: str = "", given: frozenset[str] = frozenset(),
+              variation: dict | None = None) -> str:
     """A complete, commented card: every parameter with unit, allowed range and meaning."""
     kind = get_kind(kind_key)
     values = values or {}
@@ -314,6 +327,10 @@ def card_text(kind_key: str, name: str, values: dict[str, float] | None = None, 
     if provenance:
         lines += [""]
         lines += _toml_table({"provenance": provenance})  # nested tables stay under [provenance.*]
+    if variation:
+        lines += ["", "# where the process sigmas of [parameters] came from; the Monte Carlo sections draw the global",
+                  "# draws of `correlated` with `correlation` (model/variation.py)"]
+        lines += _toml_table({"variation": variation})
     return "\n".join(lines) + "\n"
 
 

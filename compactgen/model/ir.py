@@ -143,6 +143,10 @@ class ModelIR:
     residuals: dict[str, sp.Expr] = field(default_factory=dict)
     #: internal electrical nodes (not states); branches and voltage probes may use them
     nodes: list[Node] = field(default_factory=list)
+    #: correlation of the global Monte Carlo draws (card [variation]): names of the varied
+    #: parameters and their correlation matrix; empty: independent draws.  Only the library's
+    #: Monte Carlo sections read it (the equations and their digests do not hold it)
+    global_correlation: tuple[tuple[str, ...], tuple[tuple[float, ...], ...]] = ()
 
     # ---- queries -------------------------------------------------------------------------
     def param_symbols(self) -> dict[str, sp.Symbol]:

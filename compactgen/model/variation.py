@@ -89,3 +89,107 @@ DRAW_PREFIXES = ("draw_global_", "draw_mismatch_")
 def is_draw(name: str) -> bool:
     """True for a statistical-draw parameter (a standard-normal value a Monte Carlo run draws)."""
     return name.startswith(DRAW_PREFIXES)
+
+
+#: where a card's process sigmas came from ([variation] origin)
+ORIGINS = {
+    "wafer": "a measured wafer population (compactgen wafer-stats): global spread from die to die, mismatch "
+             "from devices of several areas on the same dies",
+    "fit": "one device's fit: sigma_global_p = standard error / value (a fit's uncertainty, not a process spread)",
+    "default": "illustrative defaults (no source)",
+}
+VARIATION_KEYS = ("origin", "summary", "correlated", "correlation", "intervals", "population")
+
+
+def check_table(table, values: dict[str, float], where: str) -> dict:
+    """The card's [variation] table, checked: ``origin`` one of ORIGINS, ``correlated`` varied
+    parameters, ``correlation`` their global correlation (symmetric, unit diagonal, positive
+    definite), ``intervals`` {parameter: [low, high]}, ``summary``/``population`` free text and table."""
+    from compactgen.errors import CardError
+
+    if not isinstance(table, dict):
+        raise CardError(f"{where}: [variation] must be a table")
+    for key in table:
+        if key not in VARIATION_KEYS:
+            raise CardError(f"{where}: unknown key [variation] {key!r}; allowed: {', '.join(VARIATION_KEYS)}")
+    out = dict(table)
+    if "origin" in out and out["origin"] not in ORIGINS:
+        raise CardError(f"{where}: [variation] origin = {out['origin']!r}; expected one of {', '.join(ORIGINS)}")
+    names = out.get("correlated", [])
+    if not isinstance(names, list) or not all(isinstance(n, str) for n in names):
+        raise CardError(f"{where}: [variation] correlated must be a list of parameter names")
+    for n in names:
+        if f"sigma_global_{n}" not in values:
+            varied = sorted(k[len("sigma_global_"):] for k in values if k.startswith("sigma_global_"))
+            raise CardError(f"{where}: [variation] correlated: {n!r} is not a varied parameter (varied: "
+                            f"{', '.join(varied)})")
+    if len(set(names)) != len(names):
+        raise CardError(f"{where}: [variation] correlated names a parameter twice")
+    if names or "correlation" in out:
+        m = out.get("correlation")
+        k = len(names)
+        if (not isinstance(m, list) or len(m) != k
+                or not all(isinstance(r, list) and len(r) == k for r in m)):
+            raise CardError(f"{where}: [variation] correlation must be a {k} x {k} matrix (one row per name in "
+                            f"correlated: {', '.join(names) or 'none given'})")
+        for i, row in enumerate(m):
+            for j, c in enumerate(row):
+                if not isinstance(c, (int, float)) or isinstance(c, bool) or not -1.0 <= c <= 1.0:
+                    raise CardError(f"{where}: [variation] correlation row {i + 1} ({names[i]}), column {j + 1} "
+                                    f"({names[j]}): {c!r} is not a number in [-1, 1]")
+                if i == j and abs(c - 1.0) > 1e-9:
+                    raise CardError(f"{where}: [variation] correlation row {i + 1} ({names[i]}): the diagonal must "
+                                    f"be 1 (got {c!r})")
+                if abs(c - m[j][i]) > 1e-9:
+                    raise CardError(f"{where}: [variation] correlation is not symmetric: row {i + 1}, column "
+                                    f"{j + 1} is {c!r} but row {j + 1}, column {i + 1} is {m[j][i]!r}")
+        if k and cholesky(m) is None:
+            raise CardError(f"{where}: [variation] correlation is not positive definite (no set of draws can "
+                            "have these correlations); check the signs and sizes of the entries")
+    iv = out.get("intervals", {})
+    if not isinstance(iv, dict):
+        raise CardError(f"{where}: [variation] intervals must be a table of name = [low, high]")
+    for key, pair in iv.items():
+        if (not isinstance(pair, list) or len(pair) != 2
+                or not all(isinstance(x, (int, float)) and not isinstance(x, bool) for x in pair) or pair[0] > pair[1]):
+            raise CardError(f"{where}: [variation.intervals] {key} = {pair!r}; expected [low, high] with low <= high")
+    return out
+
+
+def cholesky(matrix) -> list[list[float]] | None:
+    """Lower Cholesky factor of a correlation matrix (plain Python), or None if it is not
+    positive definite."""
+    k = len(matrix)
+    low = [[0.0] * k for _ in range(k)]
+    for i in range(k):
+        for j in range(i + 1):
+            s = float(matrix[i][j]) - sum(low[i][m] * low[j][m] for m in range(j))
+            if i == j:
+                if s <= 1e-12:
+                    return None
+                low[i][i] = s ** 0.5
+            else:
+                low[i][j] = s / low[j][j]
+    return low
+
+
+def global_correlation(variation: dict) -> tuple:
+    """(names, matrix) of a checked [variation] table's correlated global draws."""
+    names = tuple(variation.get("correlated", ()))
+    return (names, tuple(tuple(float(c) for c in row) for row in variation.get("correlation", ()))) if names else ()
+
+
+def sigma_origin(card) -> tuple[str, str]:
+    """(origin key, one line) saying where the card's sigmas came from: its [variation] origin,
+    else 'fit' when [uncertainty] set some sigma_global, else 'default'."""
+    key = card.variation.get("origin")
+    if key is None:
+        given = {n for n in card.given if n.startswith(("sigma_global_", "sigma_mismatch_"))}
+        key = "fit" if card.uncertainty and not given else ("card" if given else "default")
+    text = ORIGINS.get(key, "the card's own sigma values (no [variation] origin given)")
+    return key, text
+
+
+def varied_names(values: dict[str, float]) -> list[str]:
+    """The varied parameters of a card's values (those with a sigma_global_*), in table order."""
+    return [k[len("sigma_global_"):] for k in values if k.startswith("sigma_global_")]

@@ -87,7 +87,23 @@ def datasheet(card: Card, ir: ModelIR, figs: dict[str, float], ngspice_ctx: dict
     from compactgen.statistics.thermal import thermal_context
 
     ctx["thermal"] = thermal_context(ir)
+    ctx["sigma_origin"] = _sigma_origin(card, ir)
     return render.environment().get_template("datasheet/model.md.j2").render(**ctx)
+
+
+def _sigma_origin(card: Card, ir: ModelIR) -> dict:
+    """Where the card's sigmas came from (model/variation.sigma_origin), and a wafer population's
+    global correlation and intervals."""
+    from compactgen.model.variation import sigma_origin
+
+    key, text = sigma_origin(card)
+    var = card.variation
+    out = dict(key=key, text=text, summary=var.get("summary", ""), correlated=list(var.get("correlated", [])),
+               intervals=[dict(name=k, low=f"{lo:.4g}", high=f"{hi:.4g}") for k, (lo, hi) in var.get("intervals", {}).items()
+                          if k.startswith("sigma_")])
+    names = out["correlated"]
+    out["matrix"] = [dict(name=n, cells=[f"{c:+.3f}" for c in row]) for n, row in zip(names, var.get("correlation", []))]
+    return out
 
 
 def _si_time(seconds: float) -> str:

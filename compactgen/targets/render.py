@@ -187,14 +187,41 @@ def _sections(ir: ModelIR) -> list[dict]:
         out.append(dict(name=name, desc=f"corner {name}: every varied parameter at {z:+g} global sigma",
                         globals=[("corner", format_number(z)), ("mismatch", "0.0")]
                         + [(g, "0.0") for g in global_draws]))
+    drawn = _global_draw_lines(ir, global_draws)
     for name, g_on, l_on in (("mc", 1, 1), ("mc_global", 1, 0), ("mc_local", 0, 1)):
         what = {"mc": "global and local (mismatch) variation", "mc_global": "global variation only",
                 "mc_local": "local (mismatch) variation only"}[name]
         out.append(dict(name=name, desc=f"Monte Carlo about the typical mean, {what}",
                         globals=[("corner", "0.0"), ("mismatch", f"{l_on:.1f}")]
-                        + [x for g in global_draws for x in ([(f"{g}_sample", "agauss(0,1,1)"),
-                                                                  (g, f"{{{ir.name}_{g}_sample*1.0}}")]
-                                                                 if g_on else [(g, "0.0")])]))
+                        + (drawn if g_on else [(g, "0.0") for g in global_draws])))
+    return out
+
+
+def _global_draw_lines(ir: ModelIR, global_draws: list[str]) -> list[tuple[str, str]]:
+    """The Monte Carlo sections' global draws: an independent standard-normal sample per draw;
+    the draws of the card's correlated parameters ([variation], ``ir.global_correlation``) are
+    the Cholesky factor of their correlation matrix times those samples, the others the sample
+    itself."""
+    from compactgen.model.variation import cholesky
+
+    names, matrix = ir.global_correlation or ((), ())
+    low = cholesky(matrix) if names else None
+    if low is None:  # independent: each sample next to its draw
+        return [x for g in global_draws for x in [(f"{g}_sample", "agauss(0,1,1)"),
+                                                  (g, f"{{{ir.name}_{g}_sample*1.0}}")]]
+    # every reference to a brace-less agauss() .param draws again (measured, ngspice 46): each sample
+    # is read once into a .param of its own (_z), and the correlated draws combine those
+    out = [(f"{g}_sample", "agauss(0,1,1)") for g in global_draws]
+    out += [(f"{g}_z", f"{{{ir.name}_{g}_sample*1.0}}") for g in global_draws]
+    row_of = {f"draw_global_{n}": i for i, n in enumerate(names)}
+    for g in global_draws:
+        if g not in row_of:
+            out.append((g, f"{{{ir.name}_{g}_z}}"))
+            continue
+        i = row_of[g]
+        terms = [f"{format_number(low[i][j])}*{ir.name}_draw_global_{names[j]}_z" for j in range(i + 1)
+                 if low[i][j] != 0.0]
+        out.append((g, "{" + "+".join(terms) + "}"))
     return out
 
 

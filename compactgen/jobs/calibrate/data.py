@@ -126,7 +126,51 @@ def _choice(text: str, choices: tuple[str, ...]) -> str | None:
 
 def read_dataset(path: str | Path, kind: str | None = None) -> Dataset:
     """Read and check one data file; ``kind`` forces the measurement type."""
-    path = Path(path)
+    parsed = _parse_file(Path(path), kind)
+    return _dataset(parsed, parsed["rows"], parsed["row_lines"], {})
+
+
+def read_device_datasets(path: str | Path, column: str = "device", add_meta=None) -> list[tuple[str, Dataset]]:
+    """One file holding several devices, each row tagged with its device id in ``column`` (a text
+    column, as many rows per device as a file of one device would hold), or one device named by
+    ``# device: ID``: a (device id, Dataset) pair per device, in the order of first appearance,
+    each checked on its own.  ``add_meta(device_id, meta, meta_line, where)`` (the file's metadata,
+    their line numbers, and where the device is named: file, line, column or metadata key)
+    returns metadata {key: text} that replaces or completes the file's (e.g.
+    the diameter from a device table; it may check the file's own first).  A file that names no
+    device is a DataError."""
+    parsed = _parse_file(Path(path), None)
+    names = parsed["names"]
+    key = _norm(column)
+    groups: dict[str, tuple[list, list]] = {}
+    if key in names:
+        k = names.index(key)
+        for cells, line in zip(parsed["rows"], parsed["row_lines"]):
+            dev = cells[k]
+            if not dev:
+                raise DataError(f"{parsed['path']}, line {line}, column '{key}': empty device id")
+            rows, lines = groups.setdefault(dev, ([], []))
+            rows.append(cells)
+            lines.append(line)
+    elif "device" in parsed["meta"]:
+        groups[parsed["meta"]["device"].strip()] = (parsed["rows"], parsed["row_lines"])
+    else:
+        raise DataError(f"{parsed['path']}: names no device: add a column '{key}' with each row's device id, "
+                        "or a line '# device: ID' above the header")
+    out = []
+    for dev, (rows, lines) in groups.items():
+        where = (f"{parsed['path']}, line {lines[0]}, column '{key}'" if key in names
+                 else f"{parsed['path']}, line {parsed['meta_line']['device']}, metadata 'device'")
+        extra = add_meta(dev, dict(parsed["meta"]), dict(parsed["meta_line"]), where) if add_meta else {}
+        out.append((dev, _dataset(parsed, rows, lines, {**extra, "device": dev})))
+    return out
+
+
+def read_csv_cells(path: Path) -> dict:
+    """The CSV conventions of every data file, no schema: ``# key: value`` metadata (each once),
+    the header of ``name [unit]`` cells (names normalised, each once), and the rows as text cells
+    with their line numbers.  Returns path, meta, meta_line, names, units, header_at, sep, rows,
+    row_lines, sha256."""
     if not path.is_file():
         raise DataError(f"{path}: no such data file")
     raw = path.read_bytes()
@@ -168,6 +212,27 @@ def read_dataset(path: str | Path, kind: str | None = None) -> Dataset:
             raise DataError(f"{path}, line {header_at}: column '{name}' appears twice (ambiguous)")
         names.append(name)
         units.append((m.group("unit") or "").strip())
+    # rows
+    rows: list[list[str]] = []
+    row_lines: list[int] = []
+    for i in range(header_at + 1, len(lines) + 1):
+        s = lines[i - 1].strip()
+        if not s or s.startswith("#"):
+            continue
+        cells = [c.strip() for c in lines[i - 1].split(sep)]
+        if len(cells) != len(names):
+            raise DataError(f"{path}, line {i}: {len(cells)} values, but the header has {len(names)} columns")
+        rows.append(cells)
+        row_lines.append(i)
+    return dict(path=path, meta=meta, meta_line=meta_line, names=names, units=units, header_at=header_at, sep=sep,
+                rows=rows, row_lines=row_lines, sha256=hashlib.sha256(raw).hexdigest())
+
+
+def _parse_file(path: Path, kind: str | None) -> dict:
+    """Header, metadata, schema, column units and raw rows of a data file (nothing converted)."""
+    cells = read_csv_cells(path)
+    meta, meta_line, names, units, header_at = (cells[k] for k in ("meta", "meta_line", "names", "units", "header_at"))
+    rows, row_lines = cells["rows"], cells["row_lines"]
     schema = _pick_schema(path, kind or meta.get("measurement"), names, meta_line.get("measurement"))
     specs = schema.column_specs()
     for group in schema.columns:
@@ -189,27 +254,26 @@ def read_dataset(path: str | Path, kind: str | None = None) -> Dataset:
         if n not in specs:
             continue
         maps[n] = _column_map(path, header_at, n, u, specs[n])
-    # rows
-    rows: list[list[str]] = []
-    row_lines: list[int] = []
-    for i in range(header_at + 1, len(lines) + 1):
-        s = lines[i - 1].strip()
-        if not s or s.startswith("#"):
-            continue
-        cells = [c.strip() for c in lines[i - 1].split(sep)]
-        if len(cells) != len(names):
-            raise DataError(f"{path}, line {i}: {len(cells)} values, but the header has {len(names)} columns")
-        rows.append(cells)
-        row_lines.append(i)
     if not rows:
         raise DataError(f"{path}: no data rows after the header (line {header_at})")
+    return dict(path=path, schema=schema, meta=meta, meta_line=meta_line, names=names, units=units, used=used,
+                ignored=ignored, specs=specs, maps=maps, rows=rows, row_lines=row_lines, header_at=header_at,
+                sha256=cells["sha256"])
+
+
+def _dataset(parsed: dict, rows: list[list[str]], row_lines: list[int], extra_meta: dict[str, str]) -> Dataset:
+    """A checked Dataset from some rows of a parsed file; ``extra_meta`` (added or replacing the
+    file's) is attributed to the header line."""
+    path, names, units, used, specs, maps = (parsed[k] for k in ("path", "names", "units", "used", "specs", "maps"))
+    meta = {**parsed["meta"], **extra_meta}
+    meta_line = {**parsed["meta_line"], **{k: parsed["header_at"] for k in extra_meta}}
     columns: dict[str, np.ndarray] = {}
     for n in used:
         k = names.index(n)
         cells = [r[k] for r in rows]
         columns[n] = _column_values(path, row_lines, n, cells, specs[n], maps[n])
-    ds = Dataset(path, schema, meta, meta_line, columns, {n: units[names.index(n)] for n in used},
-                 np.asarray(row_lines), hashlib.sha256(raw).hexdigest(), ignored)
+    ds = Dataset(path, parsed["schema"], meta, meta_line, columns, {n: units[names.index(n)] for n in used},
+                 np.asarray(row_lines), parsed["sha256"], parsed["ignored"])
     _check_rows(ds)
     _check_meta(ds)
     return ds
@@ -264,6 +328,19 @@ def _column_map(path: Path, line: int, name: str, unit: str, spec: ColumnSpec) -
                         f"(for example {spec.example or spec.si_unit})") from None
 
 
+def cell_number(path, line: int, column: str, text: str) -> float:
+    """A finite number from one cell; a DataError naming file, line and column otherwise."""
+    if text == "":
+        raise DataError(f"{path}, line {line}, column '{column}': empty value")
+    try:
+        x = float(text)
+    except ValueError:
+        raise DataError(f"{path}, line {line}, column '{column}': {text!r} is not a number") from None
+    if not math.isfinite(x):
+        raise DataError(f"{path}, line {line}, column '{column}': {text!r} is not a finite number (NaN or inf)")
+    return x
+
+
 def _column_values(path: Path, lines: list[int], name: str, cells: list[str], spec: ColumnSpec,
                    lin: tuple[float, float]) -> np.ndarray:
     if spec.si_unit is None:
@@ -276,14 +353,7 @@ def _column_values(path: Path, lines: list[int], name: str, cells: list[str], sp
         return np.asarray(out)
     vals = np.empty(len(cells))
     for k, (ln, c) in enumerate(zip(lines, cells)):
-        if c == "":
-            raise DataError(f"{path}, line {ln}, column '{name}': empty value")
-        try:
-            x = float(c)
-        except ValueError:
-            raise DataError(f"{path}, line {ln}, column '{name}': {c!r} is not a number") from None
-        if not math.isfinite(x):
-            raise DataError(f"{path}, line {ln}, column '{name}': {c!r} is not a finite number (NaN or inf)")
+        x = cell_number(path, ln, name, c)
         if spec.integer and (x != round(x) or x < 0):
             raise DataError(f"{path}, line {ln}, column '{name}': {c!r} must be a whole number >= 0")
         vals[k] = x
@@ -401,4 +471,4 @@ def read_all(paths) -> list[Dataset]:
     return [read_dataset(p) for p in paths]
 
 
-__all__ = ["Dataset", "read_dataset", "read_all"]
+__all__ = ["Dataset", "read_dataset", "read_device_datasets", "read_all"]

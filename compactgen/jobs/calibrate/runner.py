@@ -117,8 +117,10 @@ def check_data_kinds(card, datasets: list[Dataset]) -> None:
 
 
 def fit_card(card, datasets: list[Dataset], free: list[str] | None = None, fix: list[str] = (),
-             progress=None) -> CardFit:
-    """Fit ``card`` (kind stt-mtj or dw-mtj) to ``datasets``; ``free``/``fix`` override the default choice."""
+             progress=None, fn=None) -> CardFit:
+    """Fit ``card`` (kind stt-mtj or dw-mtj) to ``datasets``; ``free``/``fix`` override the default choice.
+    ``fn``: the card's ``stt_functions`` when the caller has them already (they hold no parameter
+    values, so one set serves every device of a wafer; building them is most of a small fit's time)."""
     check_data_kinds(card, datasets)
     if card.kind == "dw-mtj":
         from compactgen.jobs.calibrate.dw_fit import fit_dw_card
@@ -126,7 +128,7 @@ def fit_card(card, datasets: list[Dataset], free: list[str] | None = None, fix: 
         return fit_dw_card(card, datasets, free=free, fix=fix, progress=progress)
     start, notes = prepare_values(card, datasets)
     work = card.with_values({k: start[k] for k in card.values})
-    fn = stt_functions(work)
+    fn = fn or stt_functions(work)
     blocks = stt_blocks(fn, datasets)
     specs = {s.name: s for s in card.device.table()}
     specs.update(NUISANCE_SPECS)

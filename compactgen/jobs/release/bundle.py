@@ -330,7 +330,18 @@ def release_manifest(card, ir, version: Version, suite, figures: dict[str, float
         "figures": fig_rec,
         "simulators": list(suite.simulators),
         "benches": bench_record(suite),
+        **({"variation": variation_record(card)} if card.variation else {}),
     })
+
+
+def variation_record(card) -> dict:
+    """The card's [variation] (where its sigmas came from, intervals, global correlation) with every
+    sigma value; recorded only for cards that have the table (compare.compare_variation judges it)."""
+    var = card.variation
+    return {"origin": var.get("origin", ""), "summary": var.get("summary", ""),
+            "sigmas": {k: v for k, v in card.values.items() if k.startswith(("sigma_global_", "sigma_mismatch_"))},
+            "intervals": dict(var.get("intervals", {})), "correlated": list(var.get("correlated", [])),
+            "correlation": [list(r) for r in var.get("correlation", [])]}
 
 
 def _write_one(path: Path, content: bytes) -> None:

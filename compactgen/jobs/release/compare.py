@@ -89,6 +89,12 @@ FIGURE_BANDS: tuple[BandRule, ...] = (
              name=r"(^|\W)m_?[xyz]\b"),
     BandRule(Band("simulator agreement", 0.0, 1e-3, "a deviation between simulator and reference; any "
                   "value below the bench tolerance 1e-3 is equally good"), name=r"I_ref|deviation"),
+    BandRule(Band("process sigma", 0.25, 0.002, "a global or mismatch sigma from a wafer population of a few "
+                  "tens of dies is known to about +-20 % (its bootstrap interval); a move beyond 25 % (plus 0.002 for "
+                  f"sigmas near zero) is a change of the process, not of the sample ({_CNP})"), units=("1",),
+             name=r"^sigma_(global|mismatch)_"),
+    BandRule(Band("correlation", 0.0, 0.2, "a correlation of global draws estimated from a few tens of dies "
+                  f"carries about +-0.2 ({_CNP})"), units=("1",), name=r"^correlation "),
     BandRule(Band("other", 0.01, 0.0, f"any other figure: 1 % ({_CNP})")),
 )
 
@@ -471,6 +477,52 @@ def compare_figures(old: dict, new: dict) -> list[FigureRow]:
     return rows
 
 
+def compare_variation(old: dict, new: dict) -> list[FigureRow]:
+    """Process sigmas and global correlations of two releases, when either records a [variation]
+    (bundle.variation_record): each sigma against the 'process sigma' band, each correlation against
+    'correlation'; a note says when the new sigma also left the old release's interval."""
+    vo, vn = old.get("variation"), new.get("variation")
+    if not vo and not vn:
+        return []
+    po, pn = old["parameters"], new["parameters"]
+    rows = []
+    names = [n for n in list(po) + [n for n in pn if n not in po] if n.startswith(("sigma_global_", "sigma_mismatch_"))]
+    for name in names:
+        a, b = po.get(name), pn.get(name)
+        band = band_for(name, "1")
+        va, vb = (a or {}).get("value"), (b or {}).get("value")
+        if a is None or b is None:
+            rows.append(FigureRow("process variation", name, "1", va, vb, band, 0.0 if a is None else math.inf,
+                                  "new" if a is None else "REMOVED"))
+            continue
+        err = _error(va, vb, band)
+        lo_hi = (vo or {}).get("intervals", {}).get(name)
+        note = ""
+        if lo_hi and not lo_hi[0] <= vb <= lo_hi[1]:
+            note = f"outside the old release's 95 % interval [{lo_hi[0]:.4g}, {lo_hi[1]:.4g}]"
+        origin = f"{(vo or {}).get('origin', 'no [variation]')} -> {(vn or {}).get('origin', 'no [variation]')}"
+        rows.append(FigureRow("process variation", name, "1", va, vb, band, err, _status(err), "card",
+                              f"process sigma (origin {origin})", note))
+
+    def corr(v):
+        out = {}
+        if v:
+            c = v.get("correlated", [])
+            for i, x in enumerate(c):
+                for j in range(i + 1, len(c)):
+                    out[f"correlation {x}-{c[j]}"] = v["correlation"][i][j]
+        return out
+
+    co, cn = corr(vo), corr(vn)
+    for name in list(co) + [n for n in cn if n not in co]:
+        a, b = co.get(name, 0.0), cn.get(name, 0.0)  # a pair not listed is drawn independently: 0
+        band = band_for(name, "1")
+        err = _error(a, b, band)
+        rows.append(FigureRow("process variation", name, "1", a, b, band, err, _status(err), "card",
+                              "correlation of the global draws"))
+    return rows
+
+
 def _status(err: float) -> str:
     return IDENTICAL if err == 0 else ("within band" if err <= 1.0 else "OUTSIDE BAND")
 
@@ -606,5 +658,5 @@ def compare_bundles(old: Bundle, new: Bundle, accepted: str | None = None, simul
     return Comparison(
         old=old.label, new=new.label, old_version=mo["version"], new_version=mn["version"], kind=mn["kind"],
         params=params, n_params=n_params, interface=compare_interface(mo["interface"], mn["interface"]),
-        figures=compare_figures(mo, mn), metrics=compare_metrics(mo, mn, stimulus, simulators), curves=curves,
+        figures=compare_figures(mo, mn) + compare_variation(mo, mn), metrics=compare_metrics(mo, mn, stimulus, simulators), curves=curves,
         stimulus_changes=stimulus, accepted=accepted or None, sources=sources)
