@@ -15,6 +15,9 @@ Checks against published physics, computed here independently of the project's c
   is the deterministic drift; barrier Delta (1 - i)^2, the n = 2 law of T. Taniguchi and H. Imamura,
   arXiv:1010.5845).  The quadrature is checked against PHYSICS.md 4.3 (MFPT/tau_N = 1.1246 at
   Delta = 10, an independent script).
+- The simulator runs use a noise step of P/20 (P: small-angle precession period) for speed; measured
+  (benchmarks/bench_thermal_field.py noise-step): effective temperature 0.984 +- 0.023 of the
+  circuit's there, against 1.013 at the library default P/40.
 - Statistical tests: scipy.stats (chi-square, Kolmogorov-Smirnov), exact chi-square confidence
   interval of an exponential mean (common practice, no source).
 """
@@ -215,3 +218,84 @@ def test_ngspice_activated_switching_is_exponential_with_browns_mean(ngspice_cli
     f_stop = 1 - math.exp(-t_stop / tau_hat)
     ks = stats.kstest(t[done], lambda s: (1 - np.exp(-np.asarray(s) / tau_hat)) / f_stop)
     assert ks.pvalue > 0.01, ks
+
+
+def test_reference_wer_tail_has_suns_long_pulse_slope():
+    """The stochastic reference (Heun, Brown's field during the pulse, Boltzmann starts) at 2 I_c0:
+    ln WER(t) falls with the slope -2 (i - 1)/tau0, tau0 = (1 + alpha^2)/(alpha gamma0 H_k,eff), of
+    precessional switching (J. Z. Sun, Phys. Rev. B 62, 570 (2000), form from memory; PHYSICS 4.2),
+    within 15 % (the thermal field during the pulse and the fit range move it a little)."""
+    from compactgen.model.evaluate import figures
+    from compactgen.statistics.ensemble import current_step
+    from compactgen.statistics.stochastic import StochasticModel
+
+    ir = thermal_card().ir()
+    i_c0 = figures(ir)["i_c0"]
+    hk, alpha = hk_eff_at(T_CIRCUIT), CARD["alpha"]
+    tau0 = (1 + alpha**2) / (alpha * GAMMA0 * hk)
+    sm = StochasticModel(ir, temperature=T_CIRCUIT, drive="current")
+    res = sm.run(20000, 0.5e-9, 0.25e-12, current_step(2.0 * i_c0).value, seed=3, state0=-1.0)
+    ts = np.linspace(0.02e-9, 0.5e-9, 49)
+    wer = 1 - res.switched_by(ts)
+    sel = (wer < 0.1) & (wer > 1e-3)
+    assert sel.sum() >= 4, wer
+    slope = np.polyfit(ts[sel], np.log(wer[sel]), 1)[0]
+    assert slope == pytest.approx(-2 * (2.0 - 1) / tau0, rel=0.15), (slope, -2 / tau0)
+
+
+@pytest.mark.simulator
+@pytest.mark.slow
+def test_ngspice_write_error_rate_matches_the_stochastic_reference(ngspice_cli):
+    """60 instances in ngspice with the thermal field on, from Boltzmann starts, under a step to
+    2 I_c0: the fraction not yet across the equator at 0.10-0.25 ns (WER ~0.9 down to ~0.02)
+    contains the reference ensemble's WER (20000 spins, same drive) in its 99 % Wilson interval
+    (E. B. Wilson, J. Am. Stat. Assoc. 22, 209 (1927))."""
+    from compactgen.model.evaluate import figures
+    from compactgen.statistics.ensemble import current_step
+    from compactgen.statistics.stochastic import StochasticModel, wilson_interval
+
+    ir = thermal_card().ir()
+    i_c0 = figures(ir)["i_c0"]
+    delta = delta_at(T_CIRCUIT)
+    period = 2 * math.pi / (GAMMA0 * hk_eff_at(T_CIRCUIT))
+    ts = np.array([0.10, 0.15, 0.20, 0.25]) * 1e-9
+    sm = StochasticModel(ir, temperature=T_CIRCUIT, drive="current")
+    ref = 1 - sm.run(20000, 0.3e-9, 0.25e-12, current_step(2.0 * i_c0).value, seed=4, state0=-1.0).switched_by(ts)
+    n = 60
+    tilt, phi = sample_initial_angles(delta, n, np.random.default_rng(13))
+    run = thermal_ensemble(ir, tilt, phi, 2.0 * i_c0, -1.0, T_CIRCUIT, 0.3e-9, seed=17, chunk=30,
+                           noise_step=period / 20, workers=2)
+    tc = np.where(np.isnan(run.t_cross), np.inf, run.t_cross)
+    k = (tc[None, :] > ts[:, None]).sum(axis=1)
+    lo, hi = wilson_interval(k, n, z=2.576)
+    print("WER at", ts, "ngspice", k / n, "reference", ref)
+    assert np.all((ref >= lo) & (ref <= hi)), (k / n, lo, hi, ref)
+
+
+@pytest.mark.simulator
+@pytest.mark.slow
+def test_wer_study_command_writes_table_and_plot(ngspice_cli, tmp_path):
+    """A tiny `compactgen wer-study` (2 widths x 6 cells of the 1T1MTJ cell, thermal field on): the
+    table, CSV and PNG are written, every width has its cells counted, the long pulse writes at
+    least as well as the short one, and the same seed repeats the study exactly (trrandom)."""
+    from compactgen.cli import main
+
+    card_path = tmp_path / "small.toml"
+    # a low RA, so that the cell reaches 2 I_c0 (250 uA at alpha 0.5) within 3 V on the bit line
+    card_path.write_text(thermal_card(ra=0.3e-12).text.replace('thermal_field = "noise-sources"', 'thermal_field = "off"'))
+    outs = []
+    for out in ("a", "b"):
+        status = main(["wer-study", str(card_path), "-o", str(tmp_path / out), "--widths", "0.08,0.3", "--runs", "6",
+                       "--chunk", "6", "--workers", "2", "--seed", "3", "--nmos-width", "2"])
+        assert status == 0
+        outs.append((tmp_path / out / "wer_study.csv").read_text())
+    rows = [line.split(",") for line in outs[0].splitlines()[1:]]
+    assert len(rows) == 2 and all(r[1] == "6" for r in rows)
+    assert int(rows[1][2]) <= int(rows[0][2]), rows
+    assert outs[0] == outs[1]
+    assert (tmp_path / "a" / "wer_study.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    md = (tmp_path / "a" / "wer_study.md").read_text()
+    assert "| 0.080 | 6 |" in md and "reference" in md
+    with pytest.raises(Exception, match="stt-mtj"):
+        from compactgen.jobs.wer_study import thermal_card as study_card
+        study_card(load_card(EXAMPLES / "sot50_demo.toml"))
