@@ -455,4 +455,5 @@ def wilson_interval(k: int | np.ndarray, n: int, z: float = 1.959963984540054):
     den = 1 + z * z / n
     centre = (p + z * z / (2 * n)) / den
     half = z * np.sqrt(p * (1 - p) / n + z * z / (4 * n * n)) / den
-    return centre - half, centre + half
+    # exact ends where nothing or everything was seen (the formula leaves a round-off there)
+    return np.where(k == 0, 0.0, centre - half), np.where(k == n, 1.0, centre + half)
