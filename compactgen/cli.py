@@ -103,7 +103,8 @@ def _extensions():
     ``add_commands(subparsers)``."""
     out = []
     for mod in ("compactgen.jobs.calibrate.commands", "compactgen.jobs.wafer.commands", "compactgen.jobs.release",
-                "compactgen.jobs.sample_cards", "compactgen.jobs.range_report"):
+                "compactgen.jobs.sample_cards", "compactgen.jobs.range_report",
+                "compactgen.jobs.wer_study"):
         try:
             m = __import__(mod, fromlist=["add_commands"])
         except ModuleNotFoundError as exc:

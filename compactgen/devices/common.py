@@ -136,6 +136,44 @@ def orientation_specs() -> list[ParamSpec]:
     ]
 
 
+#: the card option that gives a macrospin kind Brown's thermal field in the circuit simulation
+THERMAL_OPTION_NAME = "thermal_field"
+#: noise steps per small-angle precession period when the instance leaves noise_step at 0
+#: (benchmarks/bench_noise_step.py measured the Wong-Zakai convergence that sets it)
+NOISE_STEPS_PER_PERIOD = 40
+
+
+def thermal_option():
+    """The [options] entry of the macrospin kinds: "off" (default) leaves the model as it was,
+    "noise-sources" adds the thermal field as three noise inputs (ngspice transient-noise sources
+    in the B-source library) switched by the instance parameter thermal_field."""
+    from compactgen.devices.base import Option
+
+    return Option(THERMAL_OPTION_NAME, ("off", "noise-sources"), "off",
+                  "Brown's thermal field on the free layer in circuit simulation: noise-sources adds three "
+                  "noise inputs per instance (ngspice B-source library), switched on by the instance parameter "
+                  "thermal_field")
+
+
+def thermal_specs() -> list[ParamSpec]:
+    """The instance parameters of the thermal field (only in models whose card sets
+    [options] thermal_field = "noise-sources")."""
+    g = "thermal field"
+    return [
+        ParamSpec("thermal_field", "1", 0.0, 0.0, 2.0,
+                  "Brown's thermal field on the free layer: 0 off; 1 piecewise-constant Gaussian samples (ngspice "
+                  "trrandom, repeatable with .options seed=N); 2 linearly interpolated samples (ngspice trnoise, "
+                  "not repeatable); B-source library only", kind="instance", group=g),
+        ParamSpec("noise_step", "s", 0.0, 0.0, 1e-9,
+                  f"sample step of the thermal field (it also caps the time step); 0 = the small-angle precession "
+                  f"period at tnom / {NOISE_STEPS_PER_PERIOD}", kind="instance", card_unit="ps", group=g),
+    ]
+
+
+def thermal_enabled(options: dict[str, str] | None) -> bool:
+    return (options or {}).get(THERMAL_OPTION_NAME, "off") != "off"
+
+
 def cylinder_nz(values: dict[str, float], mode: str) -> float:
     if mode == "thin-film":
         return 1.0
@@ -159,6 +197,8 @@ class Parts:
         self.locals: list[tuple[sp.Symbol, sp.Expr]] = []
         self.constraints: list[tuple[sp.Expr, str]] = []
         self.shared: dict[sp.Symbol, sp.Expr] = {}
+        #: stochastic inputs (model/ir.NoiseInput), filled by macrospin_states with the thermal field
+        self.noise: list = []
         #: temperature-dependent symbol -> its value at tnom (node scales must not depend on T)
         self.nominal: dict[sp.Symbol, sp.Symbol] = {}
 
@@ -253,12 +293,17 @@ def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p, extra_torques=(), ax
     m = [sp.Symbol(n, real=True) for n in ("mx", "my", "mz")]
     n = (fl["nx"], fl["nx"], P["demag_nz"])
     heff = anisotropy.effective_field(m, fl.get("hk_t", fl["hk"]), P["ms"], n, (P["hx"], P["hy"], P["hz"]))
+    rest = fl["rest_on"]
+    thermal_on = sp.Integer(0)
+    if "thermal_field" in P:
+        heff, thermal_on = thermal_field_inputs(parts, fl, heff)
     hx_ = parts.loc(FIELD_LOCALS[0], heff[0])
     hy_ = parts.loc(FIELD_LOCALS[1], heff[1])
     hz_ = parts.loc(FIELD_LOCALS[2], heff[2])
-    rest = fl["rest_on"]
     no_inplane = sp.Piecewise((1, sp.Eq(P["hx"] ** 2 + P["hy"] ** 2, 0)), (0, True))
-    sym = parts.d("axisym", rest * no_inplane) if axial else sp.Integer(0)
+    # the co-rotating frame and its thermal cone drift stand in for the thermal field: with the
+    # field itself on, the layer moves in the laboratory frame
+    sym = parts.d("axisym", rest * no_inplane * (1 - thermal_on)) if axial else sp.Integer(0)
     az = parts.d("c_azimuthal", 1 - sym) if axial else 1
     rhs = macrospin.llg_explicit(m, (hx_, hy_, hz_), P["alpha"], h_dl, h_fl, p, azimuthal=az)
     for dl, fl_, pp in extra_torques:
@@ -278,7 +323,9 @@ def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p, extra_torques=(), ax
     s_eq, _ = anisotropy.tilted_rest_state(fl["hk_eff_t"], h_ip, fl["sgn0"] * P["hz"])
     if axial:
         s2_rest = macrospin.cone_rest_sin2(fl["hk_eff_t"], fl["sgn0"] * P["hz"], s_th2, eps2)
-        s_eq = sp.Piecewise((sp.sqrt(s2_rest), sym > 0), (s_eq, True))
+        # (with the thermal field on, the rest state is still the start: the thermal angle)
+        at_cone = sym > 0 if thermal_on == 0 else rest * no_inplane > 0
+        s_eq = sp.Piecewise((sp.sqrt(s2_rest), at_cone), (s_eq, True))
     s_rest = parts.d("sin_rest", s_eq)
     h_ip_safe = sp.sqrt(P["hx"] ** 2 + P["hy"] ** 2 + sp.Float(1e-30))  # finite where there is no field
     ux = parts.d("ux_rest", sp.Piecewise((1, sp.Eq(h_ip, 0)), (P["hx"] / h_ip_safe, True)))
@@ -289,6 +336,29 @@ def macrospin_states(parts: Parts, fl: dict, h_dl, h_fl, p, extra_torques=(), ax
     descs = ["free-layer m_x", "free-layer m_y", "free-layer m_z (+1 = parallel to the reference layer)"]
     states = [State(str(s), s, r, i, dsc) for s, r, i, dsc in zip(m, rhs, init, descs)]
     return m, states
+
+
+def thermal_field_inputs(parts: Parts, fl: dict, heff):
+    """Brown's thermal field as three noise inputs added to the effective field: H_th,i =
+    on sqrt(D/dt_n) n_i with n_i unit-rms Gaussian samples every noise step dt_n (ngspice: noise
+    sources on nodes nth_x, nth_y, nth_z), D the strength at the device temperature
+    (physics/thermal.thermal_field_strength, the derived ``hth_strength``).  Returns (field with
+    the noise added, the on switch)."""
+    from compactgen.model.ir import NoiseInput
+
+    P = parts.P
+    on = parts.d("thermal_on", sp.Piecewise((1, P["thermal_field"] >= 0.5), (0, True)))
+    n = (fl["nx"], fl["nx"], P["demag_nz"])
+    period = 1 / macrospin.kittel_frequency(0, fl["hk"], fl["ms_nom"], n)
+    step = parts.d("noise_dt", sp.Piecewise((P["noise_step"], P["noise_step"] > 0),
+                                            (period / NOISE_STEPS_PER_PERIOD, True)), positive=True)
+    rms = parts.d("hth_rms", on * thermal.thermal_field_rms(fl["noise_strength"], step))
+    out = []
+    for comp, h in zip("xyz", heff):
+        sym = sp.Symbol(f"nth_{comp}", real=True)
+        parts.noise.append(NoiseInput(f"nth_{comp}", sym, f"thermal-field noise, {comp} component (unit rms)"))
+        out.append(h + rms * sym)
+    return out, on
 
 
 def mtj_conductance(parts: Parts, area, v, cos_theta):
@@ -310,13 +380,17 @@ def mtj_conductance(parts: Parts, area, v, cos_theta):
                      node_scale=area / P["ra"])
 
 
-def pillar_free_layer(kind, values: dict[str, float], varied):
+def pillar_free_layer(kind, values: dict[str, float], varied, options: dict[str, str] | None = None):
     """The start every pillar-based kind shares: parameter table with the card values, a Parts
-    accumulator, the disk area, process variation of ``varied``, then the free layer.
+    accumulator, the disk area, process variation of ``varied``, then the free layer.  With
+    [options] thermal_field on, the table gains the thermal field's instance parameters.
     Returns (table, P, parts, area, free-layer dict)."""
+    from compactgen.model.params import ParamTable
     from compactgen.model.variation import apply_variation
 
     table = kind.table_with(values)
+    if thermal_enabled(options):
+        table = ParamTable(list(table) + thermal_specs())
     P = table.symbols()
     parts = Parts(P)
     area = parts.d("area_fl", geometry.disk_area(P["diameter"]), positive=True)

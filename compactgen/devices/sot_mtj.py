@@ -65,7 +65,7 @@ class SotMtj(DeviceKind):
     derive_defaults = SttMtj.derive_defaults  # demagnetising factor from the pillar, as for stt-mtj
 
     def build_ir(self, name, values, options) -> ModelIR:
-        table, P, parts, area, fl = pillar_free_layer(self, values, VARIED)
+        table, P, parts, area, fl = pillar_free_layer(self, values, VARIED, options)
         r_line = parts.d("r_line", heavy_metal.line_resistance(P["rho_hm"], P["line_length"], P["line_width"],
                                                                P["t_hm"]), positive=True)
         cell = three_terminal(parts, r_line / 2, r_line / 2)
@@ -135,6 +135,7 @@ class SotMtj(DeviceKind):
                 "trailing edge the free layer can follow).",
             ],
             constraints=parts.constraints,
+            noise=parts.noise,
             limits={"v_max": cell["v_tm"], "j_max": j_line},
             nodes=cell["nodes"],
         )

@@ -20,7 +20,7 @@ from compactgen.physics.constants import const_values
 from compactgen.harness.reference import ReferenceModel
 from compactgen.model.evaluate import figures
 from compactgen.devices.base import DeviceKind, Option, register
-from compactgen.devices.common import cylinder_nz, free_layer_specs, limit_specs, macrospin_states, mtj_conductance, mtj_read_specs, orientation_specs, pillar_free_layer
+from compactgen.devices.common import cylinder_nz, thermal_option, free_layer_specs, limit_specs, macrospin_states, mtj_conductance, mtj_read_specs, orientation_specs, pillar_free_layer
 from compactgen.model.params import ParamSpec
 from compactgen.model.variation import variation_specs
 
@@ -42,6 +42,7 @@ class SttMtj(DeviceKind):
     options = (
         Option("demag", ("cylinder", "thin-film"), "cylinder",
                "demagnetising factors: magnetometric cylinder from diameter and t_free, or the thin-film limit"),
+        thermal_option(),
     )
 
     def param_specs(self) -> list[ParamSpec]:
@@ -63,7 +64,7 @@ class SttMtj(DeviceKind):
         return out
 
     def build_ir(self, name, values, options) -> ModelIR:
-        table, P, parts, area, fl = pillar_free_layer(self, values, VARIED)
+        table, P, parts, area, fl = pillar_free_layer(self, values, VARIED, options)
         v = sp.Symbol("v_tb", real=True)
         mz_sym = sp.Symbol("mz", real=True)
         g = mtj_conductance(parts, area, v, mz_sym)  # p = +z, so cos(theta) = m_z
@@ -135,6 +136,7 @@ class SttMtj(DeviceKind):
                 "Internal nodes mx, my, mz carry the free-layer unit vector as voltages (1 V = 1).",
             ],
             constraints=parts.constraints,
+            noise=parts.noise,
             shared=parts.shared,
             limits={"v_max": v, "j_max": j},
         )

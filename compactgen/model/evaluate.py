@@ -55,6 +55,8 @@ def reference_numbers(ir: ModelIR, overrides: dict[str, float] | None = None,
     for sym, expr in ir.derived:
         if sym not in num:
             num[sym] = _evaluate(expr, num, str(sym))
+    for n in ir.noise:  # deterministic evaluation: the noise inputs read 0
+        num[n.symbol] = 0.0
     return num
 
 

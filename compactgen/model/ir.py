@@ -52,6 +52,19 @@ class Node:
 
 
 @dataclass(frozen=True)
+class NoiseInput:
+    """A stochastic input of the model: a unit-rms white-noise sample sequence (one Gaussian
+    sample every noise step) that the model's equations read as ``symbol``.  The ngspice
+    B-source library drives it from a transient-noise source on a node named ``name``; every
+    deterministic evaluation (reference solver, operating points, the Verilog-A module) reads 0.
+    A model has noise inputs only where its card asks for them ([options] thermal_field)."""
+
+    name: str
+    symbol: sp.Symbol
+    desc: str
+
+
+@dataclass(frozen=True)
 class State:
     name: str  # internal node name, also the symbol name
     symbol: sp.Symbol
@@ -147,6 +160,8 @@ class ModelIR:
     #: parameters and their correlation matrix; empty: independent draws.  Only the library's
     #: Monte Carlo sections read it (the equations and their digests do not hold it)
     global_correlation: tuple[tuple[str, ...], tuple[tuple[float, ...], ...]] = ()
+    #: stochastic inputs (NoiseInput): read as 0 except in the ngspice library, which drives them
+    noise: list[NoiseInput] = field(default_factory=list)
 
     # ---- queries -------------------------------------------------------------------------
     def param_symbols(self) -> dict[str, sp.Symbol]:
@@ -201,7 +216,7 @@ class ModelIR:
             raise ValueError("time scale must be a derived symbol")
         if self.time_scale in self.temperature_dependent():
             raise ValueError("the time scale may not depend on temperature (ngspice needs it at parse time)")
-        known_rt = known | set(self.voltages) | set(self.state_symbols())
+        known_rt = known | set(self.voltages) | set(self.state_symbols()) | {n.symbol for n in self.noise}
         for sym, expr in self.locals:
             _need(expr, known_rt, f"local {sym}")
             known_rt.add(sym)
@@ -216,6 +231,7 @@ class ModelIR:
         inner = [n.name for n in self.nodes]
         names = [*term, *inner, *(s.name for s in self.states)]
         names += [o.name for o in self.monitored_outputs()]  # ngspice carries each output on a node
+        names += [n.name for n in self.noise]  # and each noise input
         clash = {n for n in names if names.count(n) > 1} | ({"clk", "0"} & set(names))
         if clash:
             raise ValueError(f"node names used twice or reserved: {sorted(clash)}")
@@ -254,6 +270,8 @@ class ModelIR:
         yield self.kind
         yield ",".join(t.name for t in self.terminals)
         yield "nodes:" + ",".join(n.name for n in self.nodes)
+        if self.noise:
+            yield "noise:" + ",".join(f"{n.name}={sp.srepr(n.symbol)}" for n in self.noise)
         for s in self.params:
             yield f"param {s.name}|{s.kind}|{sp.srepr(s.symbol)}"
         for sym, v in self.constants.items():
@@ -283,6 +301,8 @@ class ModelIR:
         yield ",".join(t.name for t in self.terminals)
         if self.nodes:
             yield "nodes:" + ",".join(n.name for n in self.nodes)
+        if self.noise:
+            yield "noise:" + ",".join(n.name for n in self.noise)
         for s in self.params:
             yield f"{s.name}|{s.unit}|{s.default!r}|{s.lo!r}|{s.hi!r}|{s.kind}"
         for sym, e in self.derived + self.locals:

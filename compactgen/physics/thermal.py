@@ -79,3 +79,14 @@ def boltzmann_cone_weight(theta, delta):
     p(theta) ~ sin(theta) exp(-Delta sin^2 theta) (Boltzmann weight of E = K_eff V sin^2 theta
     times the solid-angle factor; near a pole the 2D Rayleigh form of PHYSICS 4.4)."""
     return sp.sin(theta) * sp.exp(-delta * sp.sin(theta) ** 2)
+
+
+def thermal_field_rms(strength, step):
+    """Standard deviation of one component of Brown's thermal field held over (or sampled every)
+    time step ``step``: sqrt(D/step)  [A/m], D = thermal_field_strength.  White noise of strength
+    D integrates over a step to a Gaussian of variance D step; a piecewise-constant (or linearly
+    interpolated) sample sequence of spacing ``step`` has the same low-frequency spectral density D
+    when its samples have variance D/step (W. F. Brown, Phys. Rev. 130, 1677 (1963); the step
+    form: common practice, no source)."""
+    return sp.sqrt(strength / step)
+

@@ -71,3 +71,21 @@ STEP_CAP_MEASURED_COROTATING = dict(
     reltol_1e6="no precession is left to resolve: every cap, and none, keeps the error within 0.11 %",
     no_cap="No cap: ngspice then limits the step to the .tran print step (10 ps here), VACASK to its own default",
 )
+
+#: the thermal field in ngspice (B-source library, [options] thermal_field = "noise-sources"):
+#: benchmarks/bench_thermal_field.py (noise-step and cost) on the small test card of
+#: tests/test_thermal_field.py (Delta 12, alpha 0.5, precession period P = 147 ps), ngspice 46;
+#: the datasheet quotes it, devices/common.NOISE_STEPS_PER_PERIOD follows from it
+THERMAL_FIELD_MEASURED = dict(
+    card="test card Delta 12, alpha 0.5, P = 147 ps, ngspice 46",
+    convergence="the effective temperature of the equilibrium (48 instances x 4 ns, maximum-likelihood "
+                "Delta of the Boltzmann density, standard error ~0.023) was T_eff/T = 0.835, 0.907, 0.984, 1.013, "
+                "0.984 with trrandom at noise steps P/5, P/10, P/20, P/40, P/80 (P = small-angle precession "
+                "period) and 0.723, 0.854, 0.952, 0.978, 0.968 with trnoise; the stochastic reference (Heun) "
+                "gave 0.996 and 0.994 at 2 and 0.5 ps. Default noise step P/40; too coarse a step makes the "
+                "layer colder than the circuit.",
+    cost="4 instances, 2 ns, designer tolerances, noise step = step cap = P/40: thermal_field=1 took 6587 time "
+         "points and 12.0 x the CPU time of thermal_field=0 (560 points); thermal_field=2 5412 points, 11.5 x. "
+         "ngspice restarts its step after the breakpoint at every sample: about 7-12 points per noise step "
+         "(5-8 with reltol 1e-3, trtol 7, which compactgen's thermal ensembles use).",
+)

@@ -23,6 +23,7 @@ import sympy as sp
 
 from compactgen.devices.common import FIELD_LOCALS, NOISE_STRENGTH
 from compactgen.model.ir import ModelIR
+from compactgen.model.lowering import Hoister
 from compactgen.physics import thermal
 from compactgen.harness.reference import ReferenceModel
 from compactgen.model.evaluate import DEFAULT_TEMPERATURE
@@ -158,9 +159,19 @@ class StochasticModel:
             sym_map[sym] = e
         rhs_sym = [s.rhs.xreplace(sym_map) for s in ir.states]
         psyms = sorted(set().union(*[e.free_symbols for e in rhs_sym]) - set(args), key=str)
-        self._kernel_key = (ir.digest(), drive, tuple(map(str, psyms)))
-        self._kernel_src = (args, psyms, rhs_sym)
-        self._pvec = np.array([num[p] for p in psyms], dtype=float)
+        # parameter-only sub-expressions (e.g. the torque coefficient hbar eta/(2 e mu0 Ms t A)) are
+        # computed once here instead of twice per step and spin in the kernel
+        hoist = Hoister(set(psyms), prefix="kh")
+        rhs_hoisted = [hoist(e) for e in rhs_sym]
+        values = {p: num[p] for p in psyms}
+        for sym, expr in hoist.definitions:
+            values[sym] = float(sp.sympify(expr).xreplace(values))
+        ksyms = list(psyms) + [sym for sym, _ in hoist.definitions]
+        self._kernel_key = (ir.digest(), drive, tuple(map(str, psyms)), tuple(sp.srepr(e) for e in rhs_hoisted))
+        self._kernel_src = (args, ksyms, rhs_hoisted)
+        self._pvec = np.array([values[p] for p in ksyms], dtype=float)
+        self._legacy_src = (args, psyms, rhs_sym)
+        self._legacy_pvec = np.array([num[p] for p in psyms], dtype=float)
         self.n_inputs = len(inputs)
         self.strength = float(num[sp.Symbol(NOISE_STRENGTH, real=True, positive=True)])
         self.delta = float(num[sp.Symbol("delta_t", real=True)])
@@ -193,7 +204,8 @@ class StochasticModel:
             engine: str = "auto", **kw) -> EnsembleResult:
         """An ensemble of ``n`` spins from thermal initial states around ``state0`` (+1 P, -1 AP)
         (or from ``m0``, shape (3, n)).  ``engine``: "compiled" (numba), "numpy", or "auto"
-        (compiled when numba is installed)."""
+        (compiled when numba is installed); "compiled-legacy" is the kernel before the speed-up
+        (numba's Mersenne-Twister normals, nothing hoisted), kept for benchmarks/bench_ensemble.py."""
         rng = np.random.default_rng(seed)
         if m0 is None:
             if isinstance(initial, str) and initial == "boltzmann":
@@ -206,12 +218,12 @@ class StochasticModel:
         sigma = self.sigma(dt) if thermal_field else 0.0
         if engine == "auto":
             engine = "compiled" if _numba() is not None else "numpy"
-        if engine == "compiled":
-            res = self._run_compiled(m0, steps, dt, sigma, drive, rng, **kw)
+        if engine in ("compiled", "compiled-legacy"):
+            res = self._run_compiled(m0, steps, dt, sigma, drive, rng, legacy=engine == "compiled-legacy", **kw)
         elif engine == "numpy":
             res = heun_ensemble(self.rhs_function(drive), m0, dt, steps, sigma, rng, **kw)
         else:
-            raise ValueError(f"engine must be 'auto', 'compiled' or 'numpy', not {engine!r}")
+            raise ValueError(f"engine must be 'auto', 'compiled', 'compiled-legacy' or 'numpy', not {engine!r}")
         res.info.update(temperature=self.temperature, delta=self.delta, seed=seed, thermal_field=thermal_field,
                         engine=engine)
         return res
@@ -226,8 +238,13 @@ class StochasticModel:
         return np.array(rows, dtype=float).T.copy()
 
     def _run_compiled(self, m0, steps, dt, sigma, drive, rng, t_average=None, hist_every=0, hist_count=0,
-                      progress=None) -> EnsembleResult:
-        kernel = _compiled_kernel(self._kernel_key, *self._kernel_src, self.n_inputs)
+                      progress=None, legacy: bool = False) -> EnsembleResult:
+        if legacy:
+            kernel = _compiled_kernel(("legacy",) + self._kernel_key[:3], *self._legacy_src, self.n_inputs, legacy=True)
+            pvec = self._legacy_pvec
+        else:
+            kernel = _compiled_kernel(self._kernel_key, *self._kernel_src, self.n_inputs)
+            pvec = self._pvec
         n = m0.shape[1]
         seeds = rng.integers(0, 2**31 - 1, size=n)
         inputs = self._input_table(drive, steps, dt)
@@ -241,7 +258,7 @@ class StochasticModel:
         s2 = np.zeros(n)
         if progress:
             progress(f"ensemble: {n} spins x {steps} steps (compiled kernel)")
-        kernel(m, inputs, self._pvec, dt, sigma, seeds, max(k_avg, 0), hist_every, hist, t_cross, s1, s2)
+        kernel(m, inputs, pvec, dt, sigma, seeds, max(k_avg, 0), hist_every, hist, t_cross, s1, s2)
         n_avg = steps - max(k_avg, 0)
         return EnsembleResult(
             n=n, dt=dt, steps=steps, t_cross=t_cross, m_final=m,
@@ -259,30 +276,57 @@ def _numba():
 
 
 _KERNELS: dict = {}
+#: LLVM fast-math flags of the kernel: reassociation, contraction (FMA), reciprocals, fast
+#: functions; not 'nnan'/'ninf' (NaN marks a spin that has not crossed yet)
+_FAST = {"reassoc", "contract", "arcp", "nsz", "afn"}
 
 
-def _compiled_kernel(key, args, psyms, rhs_sym, n_inputs):
+def _compiled_kernel(key, args, psyms, rhs_sym, n_inputs, legacy: bool = False):
     """A numba kernel integrating each spin on its own (its own seeded normal stream, so results do
     not depend on the thread count): Heun predictor-corrector with one field sample per step,
-    renormalisation, first equator crossing, time averages and a history of the first spins."""
+    renormalisation, first equator crossing, time averages and a history of the first spins.
+
+    Normals: xoshiro256+ uniforms (D. Blackman and S. Vigna, ACM Trans. Math. Softw. 47, 36 (2021),
+    from memory) seeded per spin through splitmix64 (common practice, no source), turned into
+    normal pairs by Marsaglia's polar method (G. Marsaglia and T. A. Bray, SIAM Rev. 6, 260 (1964));
+    three per step with the spare kept.  ``legacy``: numba's np.random (Mersenne Twister), the
+    kernel before the speed-up (benchmarks/bench_ensemble.py measures both)."""
     if key in _KERNELS:
         return _KERNELS[key]
     numba = _numba()
     if numba is None:
         raise RuntimeError("the compiled ensemble kernel needs the package numba (pip install numba)")
     scalar = sp.lambdify(list(args) + list(psyms), tuple(rhs_sym), modules="math", cse=True)
-    f = numba.njit(scalar)
+    f = numba.njit(scalar, error_model="numpy", fastmath=_FAST if not legacy else False)
     n_p = len(psyms)
     ins = ", ".join(f"u[{i}, k]" for i in range(n_inputs))
     ins1 = ", ".join(f"u[{i}, k + 1]" for i in range(n_inputs))
     ps = ", ".join(f"p[{i}]" for i in range(n_p))
+    if legacy:
+        seed_code = "np.random.seed(seeds[j])"
+        draw_code = """hx = np.random.standard_normal() * sigma
+                hy = np.random.standard_normal() * sigma
+                hz = np.random.standard_normal() * sigma"""
+    else:
+        seed_code = "_seed(st, seeds[j]); spare = 0.0; has_spare = False"
+        draw_code = """if has_spare:
+                    hx = spare * sigma
+                    g1, g2 = _polar(st)
+                    hy = g1 * sigma; hz = g2 * sigma
+                    has_spare = False
+                else:
+                    g1, g2 = _polar(st)
+                    hx = g1 * sigma; hy = g2 * sigma
+                    g1, g2 = _polar(st)
+                    hz = g1 * sigma; spare = g2; has_spare = True"""
     src = f"""
 def kernel(m, u, p, dt, sigma, seeds, k_avg, hist_every, hist, t_cross, s1, s2):
     n = m.shape[1]
     steps = u.shape[1] - 1
     n_hist = hist.shape[1]
     for j in numba.prange(n):
-        np.random.seed(seeds[j])
+        st = np.empty(4, np.uint64)
+        {seed_code}
         x = m[0, j]; y = m[1, j]; z = m[2, j]
         sg = 1.0 if z >= 0.0 else -1.0
         tc = np.nan
@@ -290,9 +334,7 @@ def kernel(m, u, p, dt, sigma, seeds, k_avg, hist_every, hist, t_cross, s1, s2):
         for k in range(steps):
             hx = 0.0; hy = 0.0; hz = 0.0
             if sigma > 0.0:
-                hx = np.random.standard_normal() * sigma
-                hy = np.random.standard_normal() * sigma
-                hz = np.random.standard_normal() * sigma
+                {draw_code}
             f1 = f({ins}, x, y, z, hx, hy, hz, {ps})
             px = x + dt * f1[0]; py = y + dt * f1[1]; pz = z + dt * f1[2]
             f2 = f({ins1}, px, py, pz, hx, hy, hz, {ps})
@@ -314,11 +356,66 @@ def kernel(m, u, p, dt, sigma, seeds, k_avg, hist_every, hist, t_cross, s1, s2):
         t_cross[j] = tc
         s1[j] = a1; s2[j] = a2
 """
-    ns = {"np": np, "numba": numba, "f": f}
+    rng = _rng_functions(numba)
+    ns = {"np": np, "numba": numba, "f": f, **rng}
     exec(compile(src, "<compactgen ensemble kernel>", "exec"), ns)
-    kernel = numba.njit(parallel=True)(ns["kernel"])
+    kernel = numba.njit(parallel=True, error_model="numpy", fastmath=_FAST if not legacy else False)(ns["kernel"])
     _KERNELS[key] = kernel
     return kernel
+
+
+_RNG: dict = {}
+
+
+def _rng_functions(numba) -> dict:
+    """numba functions of the kernel's normal generator: _seed(state, seed), _polar(state) -> two
+    independent standard normals (see _compiled_kernel)."""
+    if _RNG:
+        return _RNG
+    u64 = np.uint64
+
+    @numba.njit(inline="always")
+    def _rotl(x, k):
+        return (x << u64(k)) | (x >> u64(64 - k))
+
+    @numba.njit(inline="always")
+    def _next(st):
+        result = st[0] + st[3]
+        t = st[1] << u64(17)
+        st[2] ^= st[0]
+        st[3] ^= st[1]
+        st[1] ^= st[2]
+        st[0] ^= st[3]
+        st[2] ^= t
+        st[3] = _rotl(st[3], 45)
+        return result
+
+    @numba.njit(inline="always")
+    def _uniform(st):  # in [-1, 1): the top 53 bits
+        return (_next(st) >> u64(11)) * (2.0 / 9007199254740992.0) - 1.0
+
+    @numba.njit
+    def _seed(st, seed):
+        z = u64(seed)
+        for i in range(4):  # splitmix64
+            z = z + u64(0x9E3779B97F4A7C15)
+            w = z
+            w = (w ^ (w >> u64(30))) * u64(0xBF58476D1CE4E5B9)
+            w = (w ^ (w >> u64(27))) * u64(0x94D049BB133111EB)
+            st[i] = w ^ (w >> u64(31))
+
+    @numba.njit(inline="always")
+    def _polar(st):
+        while True:
+            a = _uniform(st)
+            b = _uniform(st)
+            s = a * a + b * b
+            if 0.0 < s < 1.0:
+                fac = np.sqrt(-2.0 * np.log(s) / s)
+                return a * fac, b * fac
+
+    _RNG.update(_seed=_seed, _polar=_polar, _next=_next, _uniform=_uniform)
+    return _RNG
 
 
 def initial_vectors(tilt: np.ndarray, phi: np.ndarray, state0: float) -> np.ndarray:
@@ -358,4 +455,5 @@ def wilson_interval(k: int | np.ndarray, n: int, z: float = 1.959963984540054):
     den = 1 + z * z / n
     centre = (p + z * z / (2 * n)) / den
     half = z * np.sqrt(p * (1 - p) / n + z * z / (4 * n * n)) / den
-    return centre - half, centre + half
+    # exact ends where nothing or everything was seen (the formula leaves a round-off there)
+    return np.where(k == 0, 0.0, centre - half), np.where(k == n, 1.0, centre + half)

@@ -88,6 +88,7 @@ def datasheet(card: Card, ir: ModelIR, figs: dict[str, float], ngspice_ctx: dict
 
     ctx["thermal"] = thermal_context(ir)
     ctx["sigma_origin"] = _sigma_origin(card, ir)
+    ctx["noise"] = _noise_context(ir) if ir.noise else None
     return render.environment().get_template("datasheet/model.md.j2").render(**ctx)
 
 
@@ -104,6 +105,23 @@ def _sigma_origin(card: Card, ir: ModelIR) -> dict:
     names = out["correlated"]
     out["matrix"] = [dict(name=n, cells=[f"{c:+.3f}" for c in row]) for n, row in zip(names, var.get("correlation", []))]
     return out
+
+
+def _noise_context(ir: ModelIR) -> dict:
+    """The datasheet's thermal-field section: the default noise step of this card and the
+    measurements behind it (sim/options.THERMAL_FIELD_MEASURED)."""
+    from compactgen.devices.common import NOISE_STEPS_PER_PERIOD
+    from compactgen.model.evaluate import reference_numbers
+    from compactgen.sim import options as simopt
+
+    tnom = ir.params["tnom"].default if "tnom" in ir.params else 300.15
+    num = reference_numbers(ir, {"noise_step": 0.0}, temperature=tnom)
+    step = float(next(v for k, v in num.items() if str(k) == "noise_dt"))
+    m = simopt.THERMAL_FIELD_MEASURED
+    return dict(step_text=f"`noise_step=0` (default) takes the small-angle precession period at tnom / "
+                          f"{NOISE_STEPS_PER_PERIOD} = {_si_time(step)} for this card; the noise step also caps "
+                          f"the time step (a breakpoint at every sample).",
+                convergence=m["convergence"], cost_card=m["card"], cost=m["cost"])
 
 
 def _si_time(seconds: float) -> str:

@@ -138,7 +138,7 @@ def _common(ir: ModelIR) -> dict:
 
 def verilog_a(ir: ModelIR) -> str:
     ctx = _common(ir)  # before hoisting: the digests are the built IR's, as in every other file
-    ir = hoisted(ir)
+    ir = hoisted(without_noise(ir))
     smap = {str(k): f"V({p},{n})" if n != "0" else f"V({p})" for k, (p, n) in ir.voltages.items()}
     smap.update({s.name: f"V({s.name})" for s in ir.states})
     smap[str(ir.temperature)] = "$temperature"
@@ -157,6 +157,48 @@ def verilog_a(ir: ModelIR) -> str:
         range_output=_range_output(ir, pr),
     )
     return environment().get_template("verilog_a/model.va.j2").render(**ctx)
+
+
+def without_noise(ir: ModelIR) -> ModelIR:
+    """The IR with its noise inputs (model/ir.NoiseInput) read as 0: the form of the targets that
+    do not carry the thermal field (the Verilog-A module and so the compiled model; openvaf-r has
+    no random functions and its white_noise has no effect in a transient, TOOLCHAIN 2.10).  Its
+    instance parameters stay, so instance lines fit both libraries."""
+    if not ir.noise:
+        return ir
+    import dataclasses
+
+    zero = {n.symbol: sp.Integer(0) for n in ir.noise}
+    return dataclasses.replace(
+        ir, noise=[], locals=[(k, sp.sympify(e).xreplace(zero)) for k, e in ir.locals],
+        states=[dataclasses.replace(st, rhs=st.rhs.xreplace(zero)) for st in ir.states],
+        branches=[dataclasses.replace(b, current=sp.sympify(b.current).xreplace(zero)) for b in ir.branches],
+        outputs=[dataclasses.replace(o, expr=sp.sympify(o.expr).xreplace(zero)) for o in ir.outputs])
+
+
+#: the ngspice sources of a noise input, by the instance parameter thermal_field: 1 trrandom
+#: (Gaussian, piecewise constant, repeatable with .options seed=N), 2 trnoise (linearly
+#: interpolated; ngspice 46 draws it from a pool filled at start-up from the process id, so no
+#: option repeats it: measured); a silent source samples every second (no breakpoints in a
+#: transient of ordinary length)
+NOISE_SOURCES = ((1, "trrandom"), (2, "trnoise"))
+NOISE_SWITCH = "thermal_field"
+NOISE_STEP = "noise_dt"
+
+
+def _noise_sources(ir: ModelIR, pr) -> list[dict]:
+    """Template rows of the noise inputs: node, series node, and per source its printed sample
+    step and amplitude."""
+    if not ir.noise:
+        return []
+    sw = ir.params[NOISE_SWITCH].symbol
+    step = next(k for k, _ in ir.derived if str(k) == NOISE_STEP)
+    code = {}
+    for value, kind in NOISE_SOURCES:
+        on = sp.And(sw >= value - 0.5, sw < value + 0.5) if value < len(NOISE_SOURCES) else sw >= value - 0.5
+        code[kind] = dict(step=pr.code(sp.Piecewise((step, on), (sp.Float(1.0), True))),
+                          amp=pr.code(sp.Piecewise((sp.Float(1.0), on), (sp.Float(0.0), True))))
+    return [dict(name=n.name, mid=f"{n.name}q", desc=n.desc, **{k: v for k, v in code.items()}) for n in ir.noise]
 
 
 def _section_default(ir: ModelIR, spec) -> str:
@@ -240,6 +282,7 @@ def ngspice_context(ir: ModelIR) -> dict:
     # simulation time from its own source clk instead: PWL(0 0 1 1) is 0 in every DC
     # analysis and equals the time during the first second of a transient.
     smap[str(SIM_TIME)] = "V(clk)"
+    smap.update({n.symbol.name: f"V({n.name})" for n in ir.noise})
     # a subcircuit parameter whose default calls agauss() is drawn anew wherever it is referenced
     # (measured, ngspice 39); each draw is therefore read once into a .param of its own (one draw
     # per instance) and the model and the draw's node both use that
@@ -298,6 +341,7 @@ def ngspice_context(ir: ModelIR) -> dict:
         draws=draws,
         limits=range_limits(ir),
         instance_line=usage_instance(ir),
+        noise=_noise_sources(ir, NgspicePrinter(smap)),
     )
     ctx["derived"] = [dict(name=d["once"], code=d["name"]) for d in draws] + [
         dict(name=name, code=code) for name, code in printed["derived"]]
@@ -395,7 +439,8 @@ def osdi_library_file(ir: ModelIR) -> str:
 def ngspice_osdi(ir: ModelIR) -> str:
     """The ngspice library of the compiled model: a subcircuit with the B-source library's name,
     ports, parameters (same defaults, so the same Monte Carlo draws) and sections, holding one
-    OSDI device ``N1`` of the Verilog-A module with a model of its own."""
+    OSDI device ``N1`` of the Verilog-A module with a model of its own.  It carries no thermal
+    field (the Verilog-A module reads its noise inputs as 0, see without_noise)."""
     draws = [dict(name=s.name, once=f"{s.name}_val") for s in draw_params(ir)]
     once = {d["name"]: d["once"] for d in draws}
     ctx = _common(ir)
@@ -450,6 +495,11 @@ def _node_table(ir: ModelIR, aux: list[dict], tnodes: list[dict], monitors: list
     rows += [dict(name=q["name"], kind="temperature-dependent quantity", carries=q["desc"], scale=q["scale_text"])
              for q in tnodes]
     rows += [dict(name=a["name"], kind="shared quantity", carries=a["desc"], scale=a["scale_text"]) for a in aux]
+    for n in ir.noise:
+        rows += [dict(name=n.name, kind="noise input", carries=n.desc + " (0 unless thermal_field is on)",
+                      scale="1 V = 1 standard deviation"),
+                 dict(name=f"{n.name}q", kind="noise input (between its two sources)",
+                      carries=f"the part of {n.name} from the trnoise source", scale="1 V = 1 standard deviation")]
     names = [r["name"] for r in rows]
     clash = sorted({n for n in names if names.count(n) > 1})
     if clash:
