@@ -31,7 +31,7 @@ def test_dw_population_recovers_the_truth_within_its_intervals(card, tmp_path):
     fits): true global sigmas (random part plus radial trend over these dies), mismatch sigmas,
     means and global correlations of dmi, theta_sh, alpha against their 95 % bootstrap intervals
     over dies.  Twelve intervals: with 30 dies the percentile bootstrap covers less than 95 % (our
-    own check, seeds 1-8: 86 of 96 intervals, the global sigmas 19 of 24), so at a miss rate of
+    own check, seeds 1-8: 87 of 96 intervals, the global sigmas 19 of 24), so at a miss rate of
     0.1 per interval three misses have a probability of about 9 % and four or more of about 2.6 %
     (binomial): at most three are allowed, each a near miss.  The planted DMI-halved and
     high-damping devices are flagged as outliers, no good device is."""
