@@ -52,8 +52,10 @@ def default_free(datasets: list[Dataset]) -> tuple[list[str], list[str]]:
 
 
 def fit_dw_card(card, datasets: list[Dataset], free: list[str] | None = None, fix: list[str] = (),
-                progress=None) -> CardFit:
-    """Fit a dw-mtj ``card`` to wall-velocity ``datasets``; ``free``/``fix`` override the default."""
+                progress=None, fn=None) -> CardFit:
+    """Fit a dw-mtj ``card`` to wall-velocity ``datasets``; ``free``/``fix`` override the default.
+    ``fn``: the card's ``wall.wall_functions`` made once (they hold no values) and reused across
+    devices (wafer-stats); built here otherwise."""
     specs = {s.name: s for s in card.device.table()}
     # the data describe typical devices: the model is evaluated at the typical process point (corner 0,
     # no Monte Carlo draws; devices/variation.py); the card keeps its own corner and draws
@@ -71,7 +73,7 @@ def fit_dw_card(card, datasets: list[Dataset], free: list[str] | None = None, fi
         raise InputError("nothing left to fit (every parameter is fixed)")
     notes = list(keep_notes) if free is None else []
     notes += [f"{n} fixed by request" for n in fix]
-    fn = wall_functions(card.ir())
+    fn = fn or wall_functions(card.ir())
     blocks = [wall_block(fn, ds) for ds in datasets]
     if any(card.values[n] != 0.0 for n in process):
         notes.append("fitted at the typical process point (corner 0, no Monte Carlo draws); the card's corner and "

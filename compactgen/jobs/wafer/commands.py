@@ -68,6 +68,7 @@ def run_wafer_stats(card_path, folder, output, devices=None, name=None, schedule
     from compactgen.jobs.build import write_files
     from compactgen.jobs.wafer import fits as wfits
     from compactgen.jobs.wafer.card_out import population_card_text
+    from compactgen.jobs.wafer.kinds import wafer_kind
     from compactgen.jobs.wafer.population import analyse, diameter_offset
     from compactgen.jobs.wafer.table import die_index, load_wafer
     from compactgen.model.card import load_card, parse_card
@@ -76,9 +77,7 @@ def run_wafer_stats(card_path, folder, output, devices=None, name=None, schedule
     say = say or (lambda m: print(m, file=sys.stderr, flush=True))
     t = {"start": time.perf_counter()}
     card = load_card(card_path)
-    if card.kind != "stt-mtj":
-        raise InputError(f"{card_path}: wafer statistics are wired for stt-mtj cards (R-V and R-H loops per device); "
-                         f"this card is {card.kind}")
+    spec = wafer_kind(card, str(card_path))
     out = Path(output)
     name = name or f"{card.name}_wafer"
     targets = [out / CARD_FILE.format(name=name), out / REPORT_FILE, out / DEVICES_FILE]
@@ -87,41 +86,53 @@ def run_wafer_stats(card_path, folder, output, devices=None, name=None, schedule
             raise InputError(f"{p}: this is the input card; wafer-stats never overwrites its input (choose another -o)")
         if p.exists() and not force:
             raise InputError(f"{p}: exists already; choose another -o or pass --force")
-    wafer = load_wafer(folder, devices)
+    wafer = load_wafer(folder, devices, accepts=spec.accepts, check=spec.missing_data)
     tab = wafer.table
     say(f"read {tab.path}: {len(tab.devices)} devices on {len(tab.dies())} dies; {len(wafer.files)} measurement "
         f"files")
     for d, why in wafer.problems.items():
         say(f"device {d}: left out: {why}")
-    # electrical diameter offset from the raw parallel resistances, before the fits
     by_id = tab.by_id()
-    raw = {d: wfits.rp_estimate(v) for d, v in wafer.datasets.items() if v and d not in wafer.problems}
-    ok_raw = [d for d, r in raw.items() if math.isfinite(r) and r > 0]
-    drawn = np.array([by_id[d].drawn_diameter for d in ok_raw])
-    offset = diameter_offset(drawn, np.array([raw[d] for d in ok_raw])) if ok_raw else math.nan
-    if not math.isfinite(offset):
+    raw: dict = {}
+    if spec.offset:  # electrical diameter offset from the raw parallel resistances, before the fits
+        raw = {d: wfits.rp_estimate(v) for d, v in wafer.datasets.items() if v and d not in wafer.problems}
+        ok_raw = [d for d, r in raw.items() if math.isfinite(r) and r > 0]
+        drawn = np.array([by_id[d].drawn_diameter for d in ok_raw])
+        offset = diameter_offset(drawn, np.array([raw[d] for d in ok_raw])) if ok_raw else math.nan
+        if not math.isfinite(offset):
+            offset = 0.0
+            say("one drawn size only: no electrical diameter offset (drawn = electrical)")
+        else:
+            offset = float(f"{offset * 1e9:.3g}") * 1e-9  # three digits: the card's diameter reads as written
+            say(f"electrical diameter offset (drawn - electrical, from R_P across sizes): {offset * 1e9:.3g} nm")
+        smallest = min(by_id[d].drawn_diameter for d in ok_raw) if ok_raw else 0.0
+        if offset >= smallest:
+            raise InputError(f"{folder}: the diameter offset {offset * 1e9:.3g} nm from R_P across sizes is not below "
+                             f"the smallest drawn diameter {smallest * 1e9:.3g} nm: R_P does not scale with the drawn "
+                             "area")
+        for d, dss in wafer.datasets.items():
+            d_el = by_id[d].drawn_diameter - offset
+            for ds in dss:
+                ds.meta["diameter"] = f"{d_el * 1e9:.9g} nm"
+                ds.meta.pop("area", None)
+    else:  # dw-mtj: the table's area is the MTJ area on the track; the velocities do not see it
         offset = 0.0
-        say("one drawn size only: no electrical diameter offset (drawn = electrical)")
-    else:
-        offset = float(f"{offset * 1e9:.3g}") * 1e-9  # three digits: the card's diameter reads as written
-        say(f"electrical diameter offset (drawn - electrical, from R_P across sizes): {offset * 1e9:.3g} nm")
-    smallest = min(by_id[d].drawn_diameter for d in ok_raw) if ok_raw else 0.0
-    if offset >= smallest:
-        raise InputError(f"{folder}: the diameter offset {offset * 1e9:.3g} nm from R_P across sizes is not below the "
-                         f"smallest drawn diameter {smallest * 1e9:.3g} nm: R_P does not scale with the drawn area")
-    for d, dss in wafer.datasets.items():
-        d_el = by_id[d].drawn_diameter - offset
-        for ds in dss:
-            ds.meta["diameter"] = f"{d_el * 1e9:.9g} nm"
-            ds.meta.pop("area", None)
     todo = {d: v for d, v in wafer.datasets.items() if v and d not in wafer.problems}
-    say(f"fitting {len(todo)} devices (R-V and R-H: ra, tmr0, v_half, ki, loop offset per device)")
+    say(f"fitting {len(todo)} devices ({spec.data_words} data: {', '.join(spec.fitted)} per device)")
     t["fits0"] = time.perf_counter()
     results = wfits.fit_devices(card, todo, scheduler=scheduler, workers=workers, progress=say)
     t["fits"] = time.perf_counter() - t["fits0"]
     excluded = dict(wafer.problems)
     for r in results:
         if not r.ok:
+            excluded[r.id] = r.reason
+            say(f"device {r.id}: left out: {r.reason}")
+    varied = [n for n in varied_names(card.values) if n in spec.fitted]
+    names = varied + [n for n in spec.reported if n not in varied]
+    for r in results:  # the statistics work on ln p: a fitted value <= 0 is a failed device, named
+        bad = [f"{n} = {r.values[n]:.4g}" for n in names if r.ok and n in r.values and not r.values[n] > 0]
+        if bad:
+            r.ok, r.reason = False, f"fit gave {', '.join(bad)}, not positive (the statistics work on ln p)"
             excluded[r.id] = r.reason
             say(f"device {r.id}: left out: {r.reason}")
     good = [r for r in results if r.ok]
@@ -132,10 +143,13 @@ def run_wafer_stats(card_path, folder, output, devices=None, name=None, schedule
     dmap, pos = die_index(tab)
     r2 = (pos ** 2).sum(axis=1)
     rmax2 = float(r2.max()) or 1.0
-    varied = [n for n in varied_names(card.values) if all(n in r.values for r in good)]
-    names = varied + [n for n in ("v_half",) if n not in varied and all(n in r.values for r in good)]
+    names = [n for n in names if all(n in r.values for r in good)]
+    varied = [n for n in varied if n in names]
     sizes = sorted({by_id[r.id].drawn_diameter for r in good})
-    ref = min(sizes, key=lambda s: abs(s - offset - card.values["diameter"]))
+    if spec.offset:
+        ref = min(sizes, key=lambda s: abs(s - offset - card.values["diameter"]))
+    else:
+        ref = min(sizes, key=lambda s: abs(math.pi / 4 * s**2 - spec.card_area(card.values)))
     area_ref = math.pi / 4 * (ref - offset) ** 2
     devs = [dict(id=r.id, die=dmap[r.id], drawn=by_id[r.id].drawn_diameter,
                  area=math.pi / 4 * (by_id[r.id].drawn_diameter - offset) ** 2, values=r.values, stderr=r.stderr,
@@ -153,7 +167,9 @@ def run_wafer_stats(card_path, folder, output, devices=None, name=None, schedule
     text, values = population_card_text(card, pop, name, tnom, summary)
     new_card = parse_card(text, str(targets[0]))
     proof = None
-    if mc:
+    if mc and spec.mc_note:
+        say(f"Monte Carlo proof skipped: {spec.mc_note}")
+    elif mc:
         layout = list(sizes)  # one instance of each size per simulated die
         k = mc_dies or max(2 * pop.n_dies, math.ceil(MC_TARGET / len(layout)))
         meas = {"r_p": [], "r_ap": [], "tmr": []}
@@ -182,50 +198,59 @@ def run_wafer_stats(card_path, folder, output, devices=None, name=None, schedule
 
     t["total"] = time.perf_counter() - t["start"]
     html = wafer_html(card, new_card, pop, results, excluded, tab, proof, truth_doc, t, offset, dmap, pos)
-    files = {targets[0].name: text, REPORT_FILE: html, DEVICES_FILE: devices_csv(tab, results, excluded, pop, offset)}
+    files = {targets[0].name: text, REPORT_FILE: html,
+             DEVICES_FILE: devices_csv(tab, results, excluded, pop, offset, spec)}
     write_files(files, out)  # all three or none (the card was checked by parse_card above)
     say(f"wrote {targets[0]}, {targets[1]}, {targets[2]}")
     return WaferRun(targets[0], targets[1], targets[2], pop, results, proof, excluded, t)
 
 
-def devices_csv(tab, results, excluded: dict, pop, offset: float) -> str:
+def devices_csv(tab, results, excluded: dict, pop, offset: float, spec=None) -> str:
     """One row per device of the table: position, sizes, fitted values with standard errors, fit
     quality, and whether (and why not) it is in the statistics."""
-    from compactgen.jobs.wafer.fits import FIGURES
+    from compactgen.jobs.wafer.kinds import KINDS
 
+    spec = spec or KINDS["stt-mtj"]
     by = {r.id: r for r in results}
-    names = ["ra", "tmr0", "v_half", "ki", "offset_field"]
-    units = {"ra": ("ohm*um^2", 1e12), "tmr0": ("1", 1.0), "v_half": ("V", 1.0), "ki": ("mJ/m^2", 1e3),
-             "offset_field": ("A/m", 1.0)}
-    fig_units = {"r_p": ("ohm", 1.0), "r_ap": ("ohm", 1.0), "mu0_hk_eff": ("mT", 1e3), "delta": ("1", 1.0)}
+    units, fig_units = spec.fitted, spec.figures
+    names, figures = list(units), list(fig_units)
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
-    buf.write(f"# per-device fits of compactgen wafer-stats; electrical diameter = drawn - {offset * 1e9:.4g} nm\n")
+    if spec.offset:
+        buf.write(f"# per-device fits of compactgen wafer-stats; electrical diameter = drawn - {offset * 1e9:.4g} nm\n")
+        sizes = ["drawn_diameter [nm]", "diameter [nm]"]
+    else:
+        buf.write("# per-device fits of compactgen wafer-stats; area = the device table's MTJ area on the track "
+                  "(track_width x mtj_length)\n")
+        sizes = ["area [nm^2]"]
     head = ["device", f"die_x [{tab.position_unit or '1'}]", f"die_y [{tab.position_unit or '1'}]",
-            "drawn_diameter [nm]", "diameter [nm]", "status", "reason"]
+            *sizes, "status", "reason"]
     for n in names:
         u = units[n][0]
         head += [f"{n} [{u}]", f"{n}_se [{u}]"]
-    head += [f"{n} [{fig_units[n][0]}]" for n in FIGURES]
-    head += ["fit_p_min", "worst_block", "rv_rms [1]", "model_evaluations", "fit_seconds [s]"]
+    head += [f"{n} [{fig_units[n][0]}]" for n in figures]
+    head += ["fit_p_min", "worst_block", *(["rv_rms [1]"] if spec.offset else []), "model_evaluations",
+             "fit_seconds [s]"]
     w.writerow(head)
     for d in tab.devices:
         r = by.get(d.id)
         status = ("outlier" if d.id in pop.outliers else "used" if d.id in pop.used else "excluded")
         reason = pop.outliers.get(d.id) or excluded.get(d.id, "")
-        row = [d.id, f"{d.die[0]:g}", f"{d.die[1]:g}", f"{d.drawn_diameter * 1e9:.6g}",
-               f"{(d.drawn_diameter - offset) * 1e9:.6g}", status, reason]
+        size = ([f"{d.drawn_diameter * 1e9:.6g}", f"{(d.drawn_diameter - offset) * 1e9:.6g}"] if spec.offset
+                else [f"{d.drawn_area * 1e18:.6g}"])
+        row = [d.id, f"{d.die[0]:g}", f"{d.die[1]:g}", *size, status, reason]
         for n in names:
             s = units[n][1]
             v = r.values.get(n, math.nan) if r else math.nan
             e = r.stderr.get(n, math.nan) if r else math.nan
             row += [f"{v * s:.8g}" if math.isfinite(v) else "", f"{e * s:.4g}" if math.isfinite(e) else ""]
-        for n in FIGURES:
+        for n in figures:
             v = r.figures.get(n, math.nan) if r else math.nan
             row.append(f"{v * fig_units[n][1]:.8g}" if math.isfinite(v) else "")
-        row += [f"{r.p_min:.4g}" if r and math.isfinite(r.p_min) else "", r.worst_block if r else "",
-                f"{r.rv_rms:.4g}" if r and math.isfinite(r.rv_rms) else "", str(r.nfev) if r else "",
-                f"{r.seconds:.3f}" if r else ""]
+        row += [f"{r.p_min:.4g}" if r and math.isfinite(r.p_min) else "", r.worst_block if r else ""]
+        if spec.offset:
+            row.append(f"{r.rv_rms:.4g}" if r and math.isfinite(r.rv_rms) else "")
+        row += [str(r.nfev) if r else "", f"{r.seconds:.3f}" if r else ""]
         w.writerow(row)
     return buf.getvalue()
 

@@ -1,8 +1,10 @@
 """One fit per device, spread over local processes or a Dask cluster (sim.tasks.run_tasks).
 
-Each device is fitted by the ordinary `compactgen fit` path (calibrate.runner.fit_card) with the
-parameters its data determine: R-V and R-H loops give ra, tmr0, v_half, ki (through H_k,eff at
-the card's ms) and the loop offset (calibrate.runner.default_free says why the rest stays fixed).
+Each device is fitted by the ordinary `compactgen fit` path with the parameters its data
+determine: for stt-mtj (calibrate.runner.fit_card) R-V and R-H loops give ra, tmr0, v_half, ki
+(through H_k,eff at the card's ms) and the loop offset (calibrate.runner.default_free says why the
+rest stays fixed); for dw-mtj (calibrate.dw_fit.fit_dw_card) wall velocities versus current
+density and field give dmi, theta_sh and alpha (dw_fit.default_free).
 The card's lambdified expressions hold no parameter values, so each worker builds them once
 and reuses them for every device (the fast path: ~0.1 s of sympy per device otherwise).
 A device whose fit raises or does not converge is returned with its reason, never dropped.
@@ -15,7 +17,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-#: figures of each fit kept per device (name -> how the per-device CSV labels it)
+#: figures of each stt-mtj fit kept per device (kinds.KINDS[kind].figures for every kind)
 FIGURES = ("r_p", "r_ap", "mu0_hk_eff", "delta")
 
 _FN_CACHE: dict = {}
@@ -41,10 +43,15 @@ class DeviceFit:
 def _functions(card):
     key = (card.kind, tuple(sorted(card.options.items())), card.sha256())
     if key not in _FN_CACHE:
-        from compactgen.jobs.calibrate.models import stt_functions
-
         _FN_CACHE.clear()
-        _FN_CACHE[key] = stt_functions(card)
+        if card.kind == "dw-mtj":
+            from compactgen.jobs.calibrate.wall import wall_functions
+
+            _FN_CACHE[key] = wall_functions(card.ir())
+        else:
+            from compactgen.jobs.calibrate.models import stt_functions
+
+            _FN_CACHE[key] = stt_functions(card)
     return _FN_CACHE[key]
 
 
@@ -52,11 +59,17 @@ def fit_one(card, dev_id: str, datasets, fn=None) -> DeviceFit:
     """Fit one device; every exception becomes a failed DeviceFit with its reason."""
     import time
 
+    from compactgen.jobs.calibrate.dw_fit import fit_dw_card
     from compactgen.jobs.calibrate.runner import fit_card
+    from compactgen.jobs.wafer.kinds import KINDS
 
     t0 = time.perf_counter()
+    figures = tuple(KINDS[card.kind].figures)
     try:
-        cf = fit_card(card, datasets, fn=fn or _functions(card))
+        if card.kind == "dw-mtj":
+            cf = fit_dw_card(card, datasets, fn=fn or _functions(card))
+        else:
+            cf = fit_card(card, datasets, fn=fn or _functions(card))
     except Exception as exc:  # noqa: BLE001 - reported per device, the wafer goes on
         msg = str(exc).replace("\n", " ")
         return DeviceFit(dev_id, False, f"fit failed: {type(exc).__name__}: {msg}",
@@ -65,10 +78,11 @@ def fit_one(card, dev_id: str, datasets, fn=None) -> DeviceFit:
     res = DeviceFit(dev_id, bool(o.success), "" if o.success else f"fit did not converge: {o.message}",
                     values={n: float(cf.values[n]) for n in cf.free},
                     stderr={n: float(o.stderr.get(n, math.nan)) for n in cf.free},
-                    figures={n: float(cf.figures[n][1]) for n in FIGURES if n in cf.figures},
-                    figure_se={n: float(cf.figures[n][2]) for n in FIGURES if n in cf.figures},
+                    figures={n: float(cf.figures[n][1]) for n in figures if n in cf.figures},
+                    figure_se={n: float(cf.figures[n][2]) for n in figures if n in cf.figures},
                     nfev=int(cf.nfev), seconds=time.perf_counter() - t0, warnings=list(o.warnings))
-    res.values["v_half"] = float(cf.values["v_half"])
+    if "v_half" in KINDS[card.kind].fitted:  # fixed or fitted, always reported
+        res.values["v_half"] = float(cf.values["v_half"])
     ps = [(s.p_value, s.name) for s in o.stats if math.isfinite(s.p_value)]
     if ps:
         res.p_min, res.worst_block = min(ps)

@@ -13,7 +13,8 @@ from compactgen.jobs.calibrate.report import _CSS
 from compactgen.targets.plots import png_base64, pyplot
 
 #: how the report shows each parameter: unit, scale from SI
-SHOW = {"ra": ("ohm um^2", 1e12), "tmr0": ("", 1.0), "ki": ("mJ/m^2", 1e3), "v_half": ("V", 1.0)}
+SHOW = {"ra": ("ohm um^2", 1e12), "tmr0": ("", 1.0), "ki": ("mJ/m^2", 1e3), "v_half": ("V", 1.0),
+        "dmi": ("mJ/m^2", 1e3), "theta_sh": ("", 1.0), "alpha": ("", 1.0)}
 
 
 def _img(png: str | None) -> str:
@@ -211,8 +212,10 @@ def draws_plot(proof) -> str | None:
 
 
 def wafer_html(card, new_card, pop, results, excluded, tab, proof, truth, seconds, offset, dmap, pos) -> str:
+    from compactgen.jobs.wafer.kinds import KINDS
     from compactgen.model.variation import varied_names
 
+    spec = KINDS[card.kind]
     parts = [f"<h1>Wafer statistics: {html.escape(new_card.name)}</h1>"]
     label = tab.meta.get("synthetic")
     parts.append(f"<p>compactgen {__version__}. Start card <code>{html.escape(str(card.path or card.name))}</code>; "
@@ -233,13 +236,19 @@ def wafer_html(card, new_card, pop, results, excluded, tab, proof, truth, second
     varied = [n for n in pop.names if n in varied_names(new_card.values)]
     others = [n for n in varied_names(new_card.values) if n not in varied]
     if others:
-        parts.append(f"<p>Not determined by R-V and R-H data, kept at the start card's sigmas: "
+        parts.append(f"<p>Not determined by {spec.data_words} data, kept at the start card's sigmas: "
                      f"{', '.join(f'<code>{n}</code>' for n in others)}.</p>")
+    unvaried = [n for n in pop.names if n not in varied]
+    if unvaried and not spec.offset:
+        parts.append(f"<p>Determined by the data but not varied by the {card.kind} kind (not in its VARIED list, "
+                     f"devices/{card.kind.replace('-', '_')}.py): {', '.join(f'<code>{n}</code>' for n in unvaried)}. "
+                     "Their population means go into the card; their sigmas and correlations are reported here and "
+                     "in the card's [variation.population] spread_not_varied, and nothing simulates them.</p>")
     parts.append("<h3>Sigma against 1/sqrt(area)</h3>" + _img(pelgrom_plot(pop)))
-    size_rows = "".join(f"<tr><td>{d * 1e9:.4g}</td>" + "".join(
+    size_rows = "".join(f"<tr><td>{spec.size_text(d).split()[0]}</td>" + "".join(
         f"<td>{_v(n, pop.params[n].size_means[d])}</td><td>{pop.params[n].size_sigma[d]:.4f}</td>" for n in pop.params)
         + "</tr>" for d in pop.sizes)
-    parts.append("<h3>Per size</h3><table><tr><th>drawn [nm]</th>" + "".join(
+    parts.append(f"<h3>Per size</h3><table><tr><th>{spec.size_header()}</th>" + "".join(
         f"<th>{n} mean</th><th>{n} sd(ln)</th>" for n in pop.params) + f"</tr>{size_rows}</table>")
     corr_t = "".join(f"<tr><td>{a}</td>" + "".join(
         f"<td>{pop.correlation[i, j]:+.3f} [{pop.correlation_ci[0][i, j]:+.2f}, {pop.correlation_ci[1][i, j]:+.2f}]"
@@ -253,14 +262,17 @@ def wafer_html(card, new_card, pop, results, excluded, tab, proof, truth, second
                  + f"</tr>{corr_t}</table>" + _img(corr_plot(pop.names, pop.correlation, "global correlation")))
     by_id = tab.by_id()
     fitted = {r.id: r for r in results if r.ok}
-    rp = [(by_id[d].drawn_diameter, fitted[d].figures["r_p"]) for d in pop.used if d in fitted]
-    parts.append(f"<h2>Electrical diameter</h2><p>Drawn minus electrical diameter: <b>{offset * 1e9:.3g} nm</b> "
-                 f"(95 % interval {_ci(tuple(x * 1e9 for x in pop.offset_ci), '{:.3g}')} nm) from 1/sqrt(R_P) against "
-                 "the drawn diameter across sizes (common practice, no source). The card's diameter is the reference "
-                 "size's electrical diameter; for another size set diameter = drawn - offset on the instance.</p>"
-                 + (_img(offset_plot([a for a, _ in rp], [b for _, b in rp], offset)) if rp else ""))
+    rp = [(by_id[d].drawn_diameter, fitted[d].figures["r_p"]) for d in pop.used if d in fitted and spec.offset]
+    if spec.offset:
+        parts.append(f"<h2>Electrical diameter</h2><p>Drawn minus electrical diameter: <b>{offset * 1e9:.3g} nm</b> "
+                     f"(95 % interval {_ci(tuple(x * 1e9 for x in pop.offset_ci), '{:.3g}')} nm) from 1/sqrt(R_P) "
+                     "against the drawn diameter across sizes (common practice, no source). The card's diameter is the "
+                     "reference size's electrical diameter; for another size set diameter = drawn - offset on the "
+                     "instance.</p>" + (_img(offset_plot([a for a, _ in rp], [b for _, b in rp], offset)) if rp else ""))
     by_dev = {r.id: (by_id[r.id].drawn_diameter, r.values) for r in results if r.ok}
     parts.append("<h2>Wafer maps</h2>" + _img(wafer_maps(pop, by_dev, dmap, pos, tab.position_unit)))
+    if proof is None and spec.mc_note:
+        parts.append(f"<h2>Monte Carlo proof</h2><p>{html.escape(spec.mc_note[0].upper() + spec.mc_note[1:])}</p>")
     if proof is not None:
         rows = "".join(
             f"<tr{'' if (r.sd_agrees and r.ks_ok) else ' class=bad'}><td>{r.quantity}</td><td>{r.drawn * 1e9:.4g}</td>"

@@ -196,3 +196,124 @@ def make_wafer(card, out_dir, n_dies: int = 12, per_size: int = 2, seed: int = 1
     }
     _write(out / "truth.json", json.dumps(truth_out, indent=1) + "\n")
     return truth_out
+
+
+# ---------------------------------------------------------------------------------------------
+# dw-mtj: a SYNTHETIC wafer of domain-wall tracks measured by wall velocities
+#: truth of the synthetic dw wafer (illustrative, no source): population means (geometric), die-level sigma,
+#: radial trend, mismatch sigma at the MTJ area of the DW_REF_WIDTH_NM track
+DW_TRUTH = {
+    "dmi": dict(mean=1.0e-3, sigma_global=0.05, trend=0.03, sigma_mismatch=0.04),
+    "theta_sh": dict(mean=0.16, sigma_global=0.06, trend=0.0, sigma_mismatch=0.05),
+    "alpha": dict(mean=0.28, sigma_global=0.04, trend=0.0, sigma_mismatch=0.03),
+}
+DW_CORRELATION = [[1.0, 0.4, 0.0], [0.4, 1.0, -0.3], [0.0, -0.3, 1.0]]
+DW_WIDTHS_NM = (30.0, 60.0, 120.0)  # track widths; the MTJ area is width x the card's mtj_length
+DW_REF_WIDTH_NM = 60.0
+DW_BAD_KINDS = ("stuck", "low_dmi", "high_alpha", "missing")
+DW_NOISE = (0.02, 0.5)  # relative and absolute [m/s] velocity scatter
+
+
+def make_dw_wafer(card, out_dir, n_dies: int = 12, per_size: int = 2, seed: int = 1, widths_nm=DW_WIDTHS_NM,
+                  truth: dict | None = None, correlation=None, n_current: int = 7, n_field: int = 7,
+                  label: str = "", fn=None) -> dict:
+    """Write a synthetic wafer of dw-mtj tracks (``n_dies`` x len(widths_nm) x ``per_size``) from
+    the dw-mtj ``card`` into ``out_dir``; returns the truth (also written as truth.json).
+
+    Each device's dmi, theta_sh and alpha follow the variation law of the module docstring (the
+    mismatch with the MTJ area track_width x mtj_length); every other parameter is the card's.  A
+    device is 'measured' as `compactgen fit` reads wall velocities: the steady wall speed of the
+    card's own wall equations (calibrate.wall, pinning off) versus current density (zero field) and
+    versus perpendicular field (zero current, up -> down wall), with DW_NOISE scatter.  Bad devices
+    on purpose: a stuck wall (velocities are noise only), DMI halved, damping x 1.8, no data.
+    Files: devices.csv (``area`` = the MTJ area, ``track_width`` kept as text),
+    wall_velocity_current.csv and wall_velocity_field.csv (rows tagged by device), truth.json."""
+    from compactgen.jobs.calibrate.wall import steady_state, wall_functions
+
+    if card.kind != "dw-mtj":
+        raise ValueError(f"make_dw_wafer needs a dw-mtj card, not {card.kind}")
+    truth = {k: dict(v) for k, v in (truth or DW_TRUTH).items()}
+    names = list(truth)
+    corr = np.asarray(correlation if correlation is not None else DW_CORRELATION, float)
+    chol = np.linalg.cholesky(corr)
+    rng = np.random.default_rng(seed)
+    out = Path(out_dir)
+    fn = fn or wall_functions(card.ir())
+    pos, radius = die_positions(n_dies)
+    rho2 = (pos[:, 0] ** 2 + pos[:, 1] ** 2) / radius**2
+    rho2c = rho2 - rho2.mean()
+    length = card.values["mtj_length"]
+    area_ref = DW_REF_WIDTH_NM * 1e-9 * length
+
+    devices = []
+    for d in range(n_dies):
+        for w in widths_nm:
+            for k in range(per_size):
+                devices.append(dict(id=f"T{d + 1:02d}-w{int(w)}{chr(97 + k)}", die=d, width=w * 1e-9))
+    bad_idx = rng.choice(len(devices), size=min(len(DW_BAD_KINDS), len(devices)), replace=False)
+    bad = {devices[i]["id"]: DW_BAD_KINDS[j] for j, i in enumerate(sorted(bad_idx))}
+    z_die = rng.standard_normal((n_dies, len(names))) @ chol.T
+    sg = np.array([truth[n]["sigma_global"] for n in names])
+    sm = np.array([truth[n]["sigma_mismatch"] for n in names])
+    tr = np.array([truth[n].get("trend", 0.0) for n in names])
+    # the flow regime the card's data file uses (calibrate.synthetic.make_wall_data), fewer points
+    j_max_cm2 = card.values["j_max"] * 1e-4
+    j_cm2 = np.round(np.concatenate([[-0.5 * j_max_cm2], np.linspace(0.0, j_max_cm2, n_current)[1:]]), -5)
+    h_mt = np.round(np.linspace(12.0, 120.0, n_field), 3)
+    abs_noise = DW_NOISE[1]
+    rows_j, rows_h, per_device = [], [], {}
+    for dv in devices:
+        area = dv["width"] * length
+        z = rng.standard_normal(len(names))
+        lnp = np.log([truth[n]["mean"] for n in names]) + sg * z_die[dv["die"]] + tr * rho2c[dv["die"]] \
+            + sm * math.sqrt(area_ref / area) * z
+        vals = dict(card.values, track_width=dv["width"], **dict(zip(names, np.exp(lnp).tolist())))
+        kind = bad.get(dv["id"])
+        if kind == "low_dmi":
+            vals["dmi"] *= 0.5
+        elif kind == "high_alpha":
+            vals["alpha"] *= 1.8
+        per_device[dv["id"]] = {n: vals[n] for n in names}
+        if kind == "missing":
+            continue
+        still = 0.0 if kind == "stuck" else 1.0
+        vj = still * steady_state(fn, vals, j_cm2 * 1e4)[0]
+        vh = still * steady_state(fn, vals, 0.0, h_mt * MT, q=1)[0]
+        vj = vj * (1 + DW_NOISE[0] * rng.standard_normal(vj.size)) + abs_noise * rng.standard_normal(vj.size)
+        vh = vh * (1 + DW_NOISE[0] * rng.standard_normal(vh.size)) + abs_noise * rng.standard_normal(vh.size)
+        rows_j += [f"{dv['id']},{j:.4g},{v:.3f}" for j, v in zip(j_cm2, vj)]
+        rows_h += [f"{dv['id']},0,{h:.4g},{v:.3f}" for h, v in zip(h_mt, vh)]
+
+    label = label or (f"generated by compactgen.jobs.wafer.synthetic (make_dw_wafer) from card {card.name}, seed "
+                      f"{seed}; SYNTHETIC, not measured")
+    table = [f"# synthetic: {label}", "# wafer: SYN-DW-01 (synthetic domain-wall track wafer)",
+             f"# columns: device id, die centre on the wafer, MTJ area on the track (track_width x mtj_length = "
+             f"{length * 1e9:.4g} nm), track width",
+             "device,die_x [mm],die_y [mm],area [um^2],track_width"]
+    table += [f"{dv['id']},{pos[dv['die'], 0]:.1f},{pos[dv['die'], 1]:.1f},{dv['width'] * length * 1e12:.6g},"
+              f"{dv['width'] * 1e9:.4g} nm" for dv in devices]
+    common = [f"# synthetic: {label}", f"# temperature: {card.values['tnom'] - 273.15:.6g} degC"]
+    out.mkdir(parents=True, exist_ok=True)
+    _write(out / "devices.csv", "\n".join(table) + "\n")
+    _write(out / "wall_velocity_current.csv", "\n".join(
+        common + ["device,current_density [A/cm^2],velocity [m/s]", *rows_j]) + "\n")
+    _write(out / "wall_velocity_field.csv", "\n".join(
+        common + ["# wall: up-down", "device,current_density [A/m^2],field [mT],velocity [m/s]", *rows_h]) + "\n")
+    var_trend = tr**2 * float(np.var(rho2))
+    cov = np.outer(sg, sg) * corr + np.diag(var_trend)
+    sg_eff = np.sqrt(np.diag(cov))
+    truth_out = {
+        "synthetic": label, "seed": seed, "card": card.name, "kind": "dw-mtj", "dies": n_dies, "per_size": per_size,
+        "track_widths_nm": list(widths_nm), "mtj_length_m": length, "area_ref_m2": area_ref,
+        "wafer_radius_mm": radius, "sizes": len(widths_nm), "devices": len(devices),
+        "parameters": {n: {**truth[n], "sigma_global_population": float(sg_eff[i]),
+                           "sigma_global_random": truth[n]["sigma_global"]} for i, n in enumerate(names)},
+        "correlation": {"parameters": names, "random_part": corr.tolist(),
+                        "population": (cov / np.outer(sg_eff, sg_eff)).tolist()},
+        "noise": {"relative": DW_NOISE[0], "absolute_m_per_s": DW_NOISE[1]},
+        "bad_devices": bad, "device_values": per_device,
+        "note": "sigma_global in 'parameters' is the random die-level part; sigma_global_population adds the "
+                "radial trend's spread over these dies (what a population of these dies shows)",
+    }
+    _write(out / "truth.json", json.dumps(truth_out, indent=1) + "\n")
+    return truth_out

@@ -134,11 +134,12 @@ def data_files(folder: Path, table_path: Path) -> list[Path]:
 
 
 def load_wafer(folder: str | Path, table_path: str | Path | None = None, diameter_offset: float = 0.0,
-               accepts: tuple[str, ...] = ("resistance-bias", "resistance-field")) -> WaferData:
+               accepts: tuple[str, ...] = ("resistance-bias", "resistance-field"), check=None) -> WaferData:
     """Read the table and every measurement file of a wafer folder.  ``diameter_offset`` [m] is
     subtracted from each drawn diameter (the electrical diameter the fits use).  A file row
     naming a device the table lacks is an error; a device with no rows is listed in
-    ``problems``."""
+    ``problems``, and so is one whose data ``check(datasets)`` (the kind's ``missing_data``) finds
+    short; without ``check`` a device needs every type in ``accepts``."""
     from compactgen.jobs.calibrate.data import read_device_datasets
 
     folder = Path(folder)
@@ -186,8 +187,14 @@ def load_wafer(folder: str | Path, table_path: str | Path | None = None, diamete
     problems = {d: "no measurement rows in any file" for d, v in per.items() if not v}
     for d, v in per.items():
         kinds = {ds.kind for ds in v}
-        if v and kinds != set(accepts):
-            problems[d] = f"only {', '.join(sorted(kinds))} data (needs {', '.join(accepts)})"
+        if not v:
+            continue
+        if check:
+            why = check(v)
+        else:
+            why = f"only {', '.join(sorted(kinds))} data (needs {', '.join(accepts)})" if kinds != set(accepts) else ""
+        if why:
+            problems[d] = why
     return WaferData(table, files, per, problems)
 
 
