@@ -175,7 +175,6 @@ def load_target(target: str):
 
 
 def cmd_verify(args) -> int:
-    from compactgen.harness.verify import SIMULATORS
 
     from compactgen.harness.verify import parse_simulators
 

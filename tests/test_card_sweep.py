@@ -4,7 +4,6 @@ outcome classes are: no crash, no timeout, no NaN judged a pass, a not-applicabl
 carries its reason."""
 from __future__ import annotations
 
-import math
 
 import numpy as np
 import pytest

@@ -2,7 +2,6 @@
 corner ordering at every temperature in both simulators."""
 from __future__ import annotations
 
-import re
 import tempfile
 from pathlib import Path
 
