@@ -28,3 +28,21 @@ def card_with(kind: str, name: str, **params: str) -> Card:
     missing = set(params) - seen
     assert not missing, f"no such card keys: {missing}"
     return parse_card("\n".join(out) + "\n", f"<{name}>")
+
+
+def population_checks(truth: dict, pop, names: list[str]) -> list[tuple]:
+    """(what, true value, (low, high)) for every mean, global sigma, mismatch sigma and global
+    correlation a wafer population analysis reports, against the synthetic wafer's truth."""
+    import numpy as np
+
+    checks = []
+    for n in names:
+        t, st = truth["parameters"][n], pop.params[n]
+        checks += [(f"sigma_global_{n}", t["sigma_global_population"], st.ci_global),
+                   (f"sigma_mismatch_{n}", t["sigma_mismatch"], st.ci_mismatch), (n, t["mean"], st.ci_mean)]
+    true_corr = np.array(truth["correlation"]["population"])
+    for i in range(len(names)):
+        for j in range(i + 1, len(names)):
+            checks.append((f"correlation {names[i]}-{names[j]}", true_corr[i, j],
+                           (pop.correlation_ci[0][i, j], pop.correlation_ci[1][i, j])))
+    return checks

@@ -9,13 +9,14 @@ import math
 import tomllib
 from pathlib import Path
 
-import numpy as np
 import pytest
 
 from compactgen.jobs.wafer.population import analyse
 from compactgen.jobs.wafer.synthetic import make_dw_wafer
 from compactgen.jobs.wafer.table import read_device_table
 from compactgen.model.card import load_card
+
+from helpers import population_checks
 
 ROOT = Path(__file__).resolve().parent.parent
 CARD = ROOT / "examples" / "dwtrack_demo.toml"
@@ -44,16 +45,7 @@ def test_dw_population_recovers_the_truth_within_its_intervals(card, tmp_path):
     names = list(truth["parameters"])
     assert names == ["dmi", "theta_sh", "alpha"] and truth["area_ref_m2"] == pytest.approx(60e-9 * 200e-9)
     pop = analyse(devs, names, truth["area_ref_m2"], bootstrap=150, seed=2)
-    checks = []
-    for n in names:
-        t, st = truth["parameters"][n], pop.params[n]
-        checks += [(f"sigma_global_{n}", t["sigma_global_population"], st.ci_global),
-                   (f"sigma_mismatch_{n}", t["sigma_mismatch"], st.ci_mismatch), (n, t["mean"], st.ci_mean)]
-    true_corr = np.array(truth["correlation"]["population"])
-    for i in range(3):
-        for j in range(i + 1, 3):
-            checks.append((f"correlation {names[i]}-{names[j]}", true_corr[i, j],
-                           (pop.correlation_ci[0][i, j], pop.correlation_ci[1][i, j])))
+    checks = population_checks(truth, pop, names)
     misses = [(what, true, ci) for what, true, ci in checks if not ci[0] <= true <= ci[1]]
     assert len(checks) == 12 and len(misses) <= 3, misses
     for what, true, (lo, hi) in misses:

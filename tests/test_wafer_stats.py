@@ -17,6 +17,8 @@ from compactgen.jobs.wafer.synthetic import make_wafer
 from compactgen.jobs.wafer.table import load_wafer, read_device_table
 from compactgen.model.card import load_card, parse_card
 
+from helpers import population_checks
+
 ROOT = Path(__file__).resolve().parent.parent
 CARD = ROOT / "examples" / "pmtj35_demo.toml"
 
@@ -73,16 +75,7 @@ def test_population_recovers_the_truth_within_its_intervals(card, tmp_path):
     devs = _population_from_truth(truth, tmp_path)
     names = list(truth["parameters"])
     pop = analyse(devs, names, truth["area_ref_m2"], bootstrap=150, seed=2)
-    checks = []
-    for n in names:
-        t, st = truth["parameters"][n], pop.params[n]
-        checks += [(f"sigma_global_{n}", t["sigma_global_population"], st.ci_global),
-                   (f"sigma_mismatch_{n}", t["sigma_mismatch"], st.ci_mismatch), (n, t["mean"], st.ci_mean)]
-    true_corr = np.array(truth["correlation"]["population"])
-    for i in range(len(names)):
-        for j in range(i + 1, len(names)):
-            checks.append((f"correlation {names[i]}-{names[j]}", true_corr[i, j],
-                           (pop.correlation_ci[0][i, j], pop.correlation_ci[1][i, j])))
+    checks = population_checks(truth, pop, names)
     checks.append(("diameter offset", truth["diameter_offset_m"], pop.offset_ci))
     misses = [(what, true, ci) for what, true, ci in checks if not ci[0] <= true <= ci[1]]
     assert len(checks) == 13 and len(misses) <= 2, misses

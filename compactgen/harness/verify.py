@@ -197,41 +197,31 @@ def vacask_netlist(ir: ModelIR, bench: Bench, osdi_name: str) -> str:
 
 
 # ---- trace extraction ----------------------------------------------------------------------
-def _trace_ngspice(ir: ModelIR, bench: Bench, data: dict) -> Trace:
+def _trace(ir: ModelIR, bench: Bench, data, current, inner) -> Trace:
+    """A Trace from a simulator's vectors: terminal voltages n_<port>, currents of the sources
+    v_<port> (named by ``current``), states and internal nodes of the device (named by ``inner``)."""
     terms = [t.name for t in ir.terminals]
     t = data["time"] if bench.analysis == "tran" else np.zeros(0)
     tr = Trace(t=np.asarray(t),
-                 voltages={n: np.asarray(data[f"n_{n}"]) for n in terms},
-                 currents={n: -np.asarray(data[f"v_{n}#branch"]) for n in terms},
-                 states={s.name: np.asarray(data[f"xdut.{s.name}"]) for s in ir.states})
-    tr.voltages.update({n.name: np.asarray(data[f"xdut.{n.name}"]) for n in ir.nodes})
+               voltages={n: np.asarray(data[f"n_{n}"]) for n in terms},
+               currents={n: -np.asarray(data[current(n)]) for n in terms},
+               states={s.name: np.asarray(data[inner(s.name)]) for s in ir.states})
+    tr.voltages.update({n.name: np.asarray(data[inner(n.name)]) for n in ir.nodes})
     return tr
+
+
+def _trace_ngspice(ir: ModelIR, bench: Bench, data: dict) -> Trace:
+    return _trace(ir, bench, data, lambda n: f"v_{n}#branch", lambda name: f"xdut.{name}")
 
 
 def _trace_ngspice_osdi(ir: ModelIR, bench: Bench, data: dict) -> Trace:
     """A trace of the compiled device N1 inside Xdut: its internal nodes are n.xdut.n1#<name>."""
-    terms = [t.name for t in ir.terminals]
-    t = data["time"] if bench.analysis == "tran" else np.zeros(0)
-    inner = {n.name: np.asarray(data[f"n.xdut.n1#{n.name.lower()}"]) for n in [*ir.states, *ir.nodes]}
-    tr = Trace(t=np.asarray(t),
-               voltages={n: np.asarray(data[f"n_{n}"]) for n in terms},
-               currents={n: -np.asarray(data[f"v_{n}#branch"]) for n in terms},
-               states={s.name: inner[s.name] for s in ir.states})
-    tr.voltages.update({n.name: inner[n.name] for n in ir.nodes})
-    return tr
+    return _trace(ir, bench, data, lambda n: f"v_{n}#branch", lambda name: f"n.xdut.n1#{name.lower()}")
 
 
 def _trace_vacask(ir: ModelIR, bench: Bench, plots: dict) -> Trace:
-    terms = [t.name for t in ir.terminals]
-    plot = plots["tr1" if bench.analysis == "tran" else "dc1"]
-    d = plot.data
-    t = d["time"] if bench.analysis == "tran" else np.zeros(0)
-    tr = Trace(t=np.asarray(t),
-                 voltages={n: np.asarray(d[f"n_{n}"]) for n in terms},
-                 currents={n: -np.asarray(d[f"v_{n}:flow(br)"]) for n in terms},
-                 states={s.name: np.asarray(d[f"xdut:{s.name}"]) for s in ir.states})
-    tr.voltages.update({n.name: np.asarray(d[f"xdut:{n.name}"]) for n in ir.nodes})
-    return tr
+    d = plots["tr1" if bench.analysis == "tran" else "dc1"].data
+    return _trace(ir, bench, d, lambda n: f"v_{n}:flow(br)", lambda name: f"xdut:{name}")
 
 
 def reference_trace(ir: ModelIR, bench: Bench) -> Trace:

@@ -74,11 +74,8 @@ def make_wafer(card, out_dir, n_dies: int = 12, per_size: int = 2, seed: int = 1
     the truth (also written as truth.json)."""
     from compactgen.jobs.calibrate.models import stt_functions
 
-    truth = {k: dict(v) for k, v in (truth or DEFAULT_TRUTH).items()}
-    names = list(truth)
-    corr = np.asarray(correlation if correlation is not None else DEFAULT_CORRELATION, float)
-    chol = np.linalg.cholesky(corr)
-    rng = np.random.default_rng(seed)
+    truth, names, corr, chol, rng = _spread_setup(truth or DEFAULT_TRUTH, correlation if correlation is not None
+                                                  else DEFAULT_CORRELATION, seed)
     out = Path(out_dir)
     fn = fn or stt_functions(card)
     pos, radius = die_positions(n_dies)
@@ -96,10 +93,7 @@ def make_wafer(card, out_dir, n_dies: int = 12, per_size: int = 2, seed: int = 1
     bad_idx = rng.choice(len(devices), size=min(n_bad, len(devices)), replace=False)
     bad = {devices[i]["id"]: BAD_KINDS[j % len(BAD_KINDS)] for j, i in enumerate(sorted(bad_idx))}
 
-    z_die = rng.standard_normal((n_dies, len(names))) @ chol.T
-    sg = np.array([truth[n]["sigma_global"] for n in names])
-    sm = np.array([truth[n]["sigma_mismatch"] for n in names])
-    tr = np.array([truth[n].get("trend", 0.0) for n in names])
+    z_die, sg, sm, tr = _die_effects(rng, chol, truth, names, n_dies)
     base = dict(card.values)
     base["v_half"] = V_HALF
     rows_rv, rows_rh = [], []
@@ -177,22 +171,13 @@ def make_wafer(card, out_dir, n_dies: int = 12, per_size: int = 2, seed: int = 1
                                             f"# read_bias: {READ_BIAS * 1e3:g} mV",
                                             f"# sweep_rate: {SWEEP_RATE_T:g} T/s",
                                             "device,field [mT],resistance [ohm],loop", *rows_rh]) + "\n")
-    # the truth: the global sigma the population shows is the random part and the trend together
-    var_trend = tr**2 * float(np.var(rho2))
-    cov = np.outer(sg, sg) * corr + np.diag(var_trend)
-    sg_eff = np.sqrt(np.diag(cov))
     truth_out = {
         "synthetic": label, "seed": seed, "card": card.name, "dies": n_dies, "per_size": per_size,
         "drawn_diameters_nm": list(drawn_nm), "diameter_offset_m": offset_nm * 1e-9, "area_ref_m2": area_ref,
         "wafer_radius_mm": radius, "sizes": len(sizes), "devices": len(devices),
-        "parameters": {n: {**truth[n], "sigma_global_population": float(sg_eff[i]),
-                           "sigma_global_random": truth[n]["sigma_global"]} for i, n in enumerate(names)},
-        "correlation": {"parameters": names, "random_part": corr.tolist(),
-                        "population": (cov / np.outer(sg_eff, sg_eff)).tolist()},
+        **_population_truth(truth, names, corr, sg, tr, rho2),
         "v_half": V_HALF, "nuisance": NUISANCE, "bad_devices": bad,
         "device_values": per_device,
-        "note": "sigma_global in 'parameters' is the random die-level part; sigma_global_population adds the "
-                "radial trend's spread over these dies (what a population of these dies shows)",
     }
     _write(out / "truth.json", json.dumps(truth_out, indent=1) + "\n")
     return truth_out
@@ -232,11 +217,8 @@ def make_dw_wafer(card, out_dir, n_dies: int = 12, per_size: int = 2, seed: int 
 
     if card.kind != "dw-mtj":
         raise ValueError(f"make_dw_wafer needs a dw-mtj card, not {card.kind}")
-    truth = {k: dict(v) for k, v in (truth or DW_TRUTH).items()}
-    names = list(truth)
-    corr = np.asarray(correlation if correlation is not None else DW_CORRELATION, float)
-    chol = np.linalg.cholesky(corr)
-    rng = np.random.default_rng(seed)
+    truth, names, corr, chol, rng = _spread_setup(truth or DW_TRUTH, correlation if correlation is not None
+                                                  else DW_CORRELATION, seed)
     out = Path(out_dir)
     fn = fn or wall_functions(card.ir())
     pos, radius = die_positions(n_dies)
@@ -252,10 +234,7 @@ def make_dw_wafer(card, out_dir, n_dies: int = 12, per_size: int = 2, seed: int 
                 devices.append(dict(id=f"T{d + 1:02d}-w{int(w)}{chr(97 + k)}", die=d, width=w * 1e-9))
     bad_idx = rng.choice(len(devices), size=min(len(DW_BAD_KINDS), len(devices)), replace=False)
     bad = {devices[i]["id"]: DW_BAD_KINDS[j] for j, i in enumerate(sorted(bad_idx))}
-    z_die = rng.standard_normal((n_dies, len(names))) @ chol.T
-    sg = np.array([truth[n]["sigma_global"] for n in names])
-    sm = np.array([truth[n]["sigma_mismatch"] for n in names])
-    tr = np.array([truth[n].get("trend", 0.0) for n in names])
+    z_die, sg, sm, tr = _die_effects(rng, chol, truth, names, n_dies)
     # the flow regime the card's data file uses (calibrate.synthetic.make_wall_data), fewer points
     j_max_cm2 = card.values["j_max"] * 1e-4
     j_cm2 = np.round(np.concatenate([[-0.5 * j_max_cm2], np.linspace(0.0, j_max_cm2, n_current)[1:]]), -5)
@@ -299,21 +278,46 @@ def make_dw_wafer(card, out_dir, n_dies: int = 12, per_size: int = 2, seed: int 
         common + ["device,current_density [A/cm^2],velocity [m/s]", *rows_j]) + "\n")
     _write(out / "wall_velocity_field.csv", "\n".join(
         common + ["# wall: up-down", "device,current_density [A/m^2],field [mT],velocity [m/s]", *rows_h]) + "\n")
-    var_trend = tr**2 * float(np.var(rho2))
-    cov = np.outer(sg, sg) * corr + np.diag(var_trend)
-    sg_eff = np.sqrt(np.diag(cov))
     truth_out = {
         "synthetic": label, "seed": seed, "card": card.name, "kind": "dw-mtj", "dies": n_dies, "per_size": per_size,
         "track_widths_nm": list(widths_nm), "mtj_length_m": length, "area_ref_m2": area_ref,
         "wafer_radius_mm": radius, "sizes": len(widths_nm), "devices": len(devices),
+        **_population_truth(truth, names, corr, sg, tr, rho2),
+        "noise": {"relative": DW_NOISE[0], "absolute_m_per_s": DW_NOISE[1]},
+        "bad_devices": bad, "device_values": per_device,
+    }
+    _write(out / "truth.json", json.dumps(truth_out, indent=1) + "\n")
+    return truth_out
+
+
+def _spread_setup(truth: dict, correlation, seed: int):
+    """A private copy of the truth, its parameter names, the global correlation with its Cholesky
+    factor, and the seeded generator every draw of a synthetic wafer comes from."""
+    truth = {k: dict(v) for k, v in truth.items()}
+    corr = np.asarray(correlation, float)
+    return truth, list(truth), corr, np.linalg.cholesky(corr), np.random.default_rng(seed)
+
+
+def _die_effects(rng, chol, truth: dict, names: list[str], n_dies: int):
+    """Correlated standard-normal die draws, and per parameter its global sigma, mismatch sigma and
+    radial trend."""
+    z_die = rng.standard_normal((n_dies, len(names))) @ chol.T
+    sg = np.array([truth[n]["sigma_global"] for n in names])
+    sm = np.array([truth[n]["sigma_mismatch"] for n in names])
+    tr = np.array([truth[n].get("trend", 0.0) for n in names])
+    return z_die, sg, sm, tr
+
+
+def _population_truth(truth: dict, names: list[str], corr, sg, tr, rho2) -> dict:
+    """The truth a population of these dies shows: the global sigma is the random part and the
+    radial trend's spread over the dies together; the correlation follows."""
+    cov = np.outer(sg, sg) * corr + np.diag(tr**2 * float(np.var(rho2)))
+    sg_eff = np.sqrt(np.diag(cov))
+    return {
         "parameters": {n: {**truth[n], "sigma_global_population": float(sg_eff[i]),
                            "sigma_global_random": truth[n]["sigma_global"]} for i, n in enumerate(names)},
         "correlation": {"parameters": names, "random_part": corr.tolist(),
                         "population": (cov / np.outer(sg_eff, sg_eff)).tolist()},
-        "noise": {"relative": DW_NOISE[0], "absolute_m_per_s": DW_NOISE[1]},
-        "bad_devices": bad, "device_values": per_device,
         "note": "sigma_global in 'parameters' is the random die-level part; sigma_global_population adds the "
                 "radial trend's spread over these dies (what a population of these dies shows)",
     }
-    _write(out / "truth.json", json.dumps(truth_out, indent=1) + "\n")
-    return truth_out
